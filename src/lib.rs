@@ -1,0 +1,12 @@
+//! lehr: places and routes small circuit boards by simulated annealing.
+//!
+//! The library is the engine and knows nothing of any user interface:
+//! - [`model`]: geometry, parametric footprints, the board file's types and their checks;
+//! - [`io`]: reading and atomically writing board files, with errors located by line and
+//!   column;
+//! - [`place`]: the incremental placement energy, moves, cooling schedules and the
+//!   annealer.
+//!
+//! See docs/ARCHITECTURE.md for the map of modules and the invariants.
+
+pub mod model;

@@ -1,0 +1,283 @@
+//! Parametric footprints: a [`FootprintSpec`] written in the board file expands into a
+//! [`Footprint`], the pads (shape, size, position, SMD or plated/unplated hole) and the
+//! courtyard that placement keeps clear.
+//!
+//! Coordinates are millimetres relative to the footprint origin, which is the centre of
+//! the land pattern, y up. Pin numbering follows the package standards: dual-row packages
+//! (SOIC, TSSOP, DIP) count counter-clockwise from pin 1 seen from the top; quad packages
+//! (QFN, QFP) start at the top of the left side and go counter-clockwise.
+
+use serde::{Deserialize, Serialize};
+use thiserror::Error;
+
+use super::geom::{Point, Rect};
+
+/// Courtyard excess around pads and body: IPC-7351 nominal density level
+/// (0.25 mm; from memory, see ../shared/CHECK-VALUES.md).
+pub const COURTYARD_EXCESS: f64 = 0.25;
+
+/// A footprint as written in a board file, e.g. `Soic(8)` or `Chip("0603")`.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub enum FootprintSpec {
+    /// Two-terminal chip part by EIA inch size code: "0402", "0603", "0805", "1206",
+    /// "1210" or "2512".
+    Chip(String),
+    /// SOD-123 diode, two pads (1 = cathode).
+    Sod123,
+    /// SOT-23 with 3, 5 or 6 pins.
+    Sot23(u32),
+    /// SOIC-n, narrow body 3.9 mm, pitch 1.27 mm (JEDEC MS-012); n even, 8 to 16.
+    Soic(u32),
+    /// TSSOP-n, body 4.4 mm, pitch 0.65 mm (JEDEC MO-153); n even.
+    Tssop(u32),
+    /// QFN with `pins` on four sides (pins divisible by 4), square `body` side and `pitch`
+    /// in mm; `thermal` is the side of the exposed pad (numbered pins + 1), if any.
+    Qfn {
+        pins: u32,
+        body: f64,
+        pitch: f64,
+        #[serde(default)]
+        thermal: Option<f64>,
+    },
+    /// QFP with `pins` on four sides, square `body` side and `pitch` in mm.
+    Qfp { pins: u32, body: f64, pitch: f64 },
+    /// Dual in-line through-hole package, pitch 2.54 mm, rows 7.62 mm apart
+    /// (15.24 mm when `wide`); n even.
+    Dip {
+        pins: u32,
+        #[serde(default)]
+        wide: bool,
+    },
+    /// Pin header on a 2.54 mm grid, `rows` x `cols`; pins numbered along each row.
+    Header { rows: u32, cols: u32 },
+    /// Screw terminal block with `ways` positions at 5.08 mm pitch.
+    TerminalBlock(u32),
+    /// TO-220 three-lead power package, leads 2.54 mm apart, upright.
+    To220,
+    /// Radial through-hole part (electrolytic capacitor, LED): two leads `pitch` apart, a
+    /// round body of `diameter`.
+    Radial { pitch: f64, diameter: f64 },
+    /// Axial through-hole part (resistor, diode) lying flat: leads `pitch` apart, body
+    /// `length` x `diameter`.
+    Axial {
+        pitch: f64,
+        length: f64,
+        diameter: f64,
+    },
+    /// Mounting hole of `drill` diameter; `pad` gives a plated ring of that diameter
+    /// (one pad "1"), otherwise the hole is unplated and has no pins.
+    MountingHole {
+        drill: f64,
+        #[serde(default)]
+        pad: Option<f64>,
+    },
+    /// An explicit pad list; the courtyard defaults to the pads' extent plus the excess.
+    Custom {
+        pads: Vec<PadSpec>,
+        #[serde(default)]
+        courtyard: Option<Rect>,
+    },
+}
+
+/// One pad of a [`FootprintSpec::Custom`] footprint.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct PadSpec {
+    pub number: String,
+    pub at: Point,
+    /// Width and height in mm.
+    pub size: (f64, f64),
+    #[serde(default)]
+    pub shape: PadShape,
+    /// Drill diameter for a through-hole pad; `None` for SMD.
+    #[serde(default)]
+    pub drill: Option<f64>,
+}
+
+/// Copper shape of a pad.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Serialize, Deserialize)]
+pub enum PadShape {
+    #[default]
+    Rect,
+    /// Rectangle with corners rounded to 25 % of the smaller side.
+    RoundRect,
+    Circle,
+    /// Stadium: a rectangle with fully rounded short ends.
+    Oval,
+}
+
+/// Surface-mount or through-hole.
+#[derive(Clone, Copy, Debug, PartialEq, Serialize, Deserialize)]
+pub enum PadKind {
+    /// Copper on the part's own side only.
+    Smd,
+    /// A hole through the board; `plated` holes carry copper on both layers.
+    ThroughHole { drill: f64, plated: bool },
+}
+
+/// A pad of an expanded footprint.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Pad {
+    /// Pin number as nets name it (`U1.3` names pad "3" of U1).
+    pub number: String,
+    /// Centre relative to the footprint origin.
+    pub at: Point,
+    pub width: f64,
+    pub height: f64,
+    pub shape: PadShape,
+    pub kind: PadKind,
+}
+
+impl Pad {
+    pub fn is_through_hole(&self) -> bool {
+        matches!(self.kind, PadKind::ThroughHole { .. })
+    }
+
+    /// The pad's bounding rectangle relative to the footprint origin.
+    pub fn rect(&self) -> Rect {
+        Rect::centered(self.at, self.width, self.height)
+    }
+}
+
+/// An expanded footprint: pads and courtyard in footprint coordinates.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Footprint {
+    /// Display name such as "SOIC-8" or "0603".
+    pub name: String,
+    pub pads: Vec<Pad>,
+    /// Package body outline (for drawing).
+    pub body: Rect,
+    /// Area the part claims on the board: pads and body plus [`COURTYARD_EXCESS`].
+    pub courtyard: Rect,
+}
+
+impl Footprint {
+    /// Index of the pad with this number.
+    pub fn pad_index(&self, number: &str) -> Option<usize> {
+        self.pads.iter().position(|p| p.number == number)
+    }
+
+    /// True when any pad goes through the board (the part then blocks both sides).
+    pub fn has_through_holes(&self) -> bool {
+        self.pads.iter().any(Pad::is_through_hole)
+    }
+}
+
+/// Why a footprint spec cannot be expanded.
+#[derive(Clone, Debug, PartialEq, Error)]
+pub enum FootprintError {
+    #[error("unknown chip size code \"{0}\" (known: 0402, 0603, 0805, 1206, 1210, 2512)")]
+    UnknownChipSize(String),
+    #[error("{package} cannot have {pins} pins ({why})")]
+    BadPinCount {
+        package: &'static str,
+        pins: u32,
+        why: &'static str,
+    },
+    #[error("{what} must be a finite number between {min} and {max} mm, got {value}")]
+    BadDimension {
+        what: &'static str,
+        value: f64,
+        min: f64,
+        max: f64,
+    },
+    #[error("custom footprint: {0}")]
+    BadCustom(String),
+}
+
+impl FootprintSpec {
+    /// Expands the spec into pads and courtyard.
+    pub fn build(&self) -> Result<Footprint, FootprintError> {
+        match self {
+            FootprintSpec::Custom { pads, courtyard } => build_custom(pads, *courtyard),
+            other => super::packages::build_package(other),
+        }
+    }
+}
+
+fn build_custom(specs: &[PadSpec], courtyard: Option<Rect>) -> Result<Footprint, FootprintError> {
+    if specs.is_empty() && courtyard.is_none() {
+        return Err(FootprintError::BadCustom(
+            "needs at least one pad or a courtyard".into(),
+        ));
+    }
+    let mut pads = Vec::with_capacity(specs.len());
+    for s in specs {
+        check_dim("pad position x", s.at.x, -500.0, 500.0)?;
+        check_dim("pad position y", s.at.y, -500.0, 500.0)?;
+        check_dim("pad width", s.size.0, 0.01, 100.0)?;
+        check_dim("pad height", s.size.1, 0.01, 100.0)?;
+        let kind = match s.drill {
+            None => PadKind::Smd,
+            Some(d) => {
+                check_dim("pad drill", d, 0.05, 50.0)?;
+                if d >= s.size.0.min(s.size.1) {
+                    return Err(FootprintError::BadCustom(format!(
+                        "pad {} drill {} mm is not smaller than the pad",
+                        s.number, d
+                    )));
+                }
+                PadKind::ThroughHole {
+                    drill: d,
+                    plated: true,
+                }
+            }
+        };
+        if pads.iter().any(|p: &Pad| p.number == s.number) {
+            return Err(FootprintError::BadCustom(format!(
+                "pad number \"{}\" appears twice",
+                s.number
+            )));
+        }
+        pads.push(Pad {
+            number: s.number.clone(),
+            at: s.at,
+            width: s.size.0,
+            height: s.size.1,
+            shape: s.shape,
+            kind,
+        });
+    }
+    let pad_extent = Rect::bounding(pads.iter().flat_map(|p| p.rect().corners()));
+    let courtyard = match courtyard {
+        Some(c) => {
+            for v in [c.min.x, c.min.y, c.max.x, c.max.y] {
+                check_dim("courtyard corner", v, -500.0, 500.0)?;
+            }
+            if c.width() <= 0.0 || c.height() <= 0.0 {
+                return Err(FootprintError::BadCustom(
+                    "courtyard has no area (min must be below and left of max)".into(),
+                ));
+            }
+            c
+        }
+        None => pad_extent
+            .expect("pads are not empty here")
+            .inflate(COURTYARD_EXCESS),
+    };
+    let body = pad_extent.unwrap_or(courtyard);
+    Ok(Footprint {
+        name: "custom".into(),
+        pads,
+        body,
+        courtyard,
+    })
+}
+
+/// Checks that a dimension is finite and within a sane range.
+pub(crate) fn check_dim(
+    what: &'static str,
+    value: f64,
+    min: f64,
+    max: f64,
+) -> Result<(), FootprintError> {
+    if value.is_finite() && value >= min && value <= max {
+        Ok(())
+    } else {
+        Err(FootprintError::BadDimension {
+            what,
+            value,
+            min,
+            max,
+        })
+    }
+}

@@ -1,0 +1,12 @@
+//! The board model: geometry, footprints, the board file's types and their checks.
+
+pub mod board;
+pub mod check;
+pub mod footprint;
+pub mod geom;
+mod packages;
+
+pub use board::{Board, Design, Layer, NetId, PartId, PinRef, Shape, Side};
+pub use check::{Problem, resolve};
+pub use footprint::{Footprint, FootprintSpec, Pad, PadKind, PadShape};
+pub use geom::{Point, Quarter, Rect};
