@@ -5,7 +5,7 @@ use serde::{Deserialize, Serialize};
 
 use super::footprint::Footprint;
 use super::footprint::FootprintSpec;
-use super::geom::{Point, Rect};
+use super::geom::{Point, Quarter, Rect};
 
 /// A whole board file.
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
@@ -210,6 +210,33 @@ pub struct Part {
     pub locked: bool,
 }
 
+/// Maps a point in footprint coordinates onto the board for a part at `at`, turned by
+/// `q` and on `side`. Bottom-side parts are seen through the board: the footprint is first
+/// mirrored about its y axis (x -> -x), then turned, then moved. This single convention is
+/// used by placement, routing, checking and drawing.
+#[inline]
+pub fn to_board(p: Point, at: Point, q: Quarter, side: Side) -> Point {
+    let m = match side {
+        Side::Top => p,
+        Side::Bottom => Point::new(-p.x, p.y),
+    };
+    q.apply(m).add(at)
+}
+
+/// [`to_board`] for an axis-aligned rectangle.
+pub fn rect_to_board(r: &Rect, at: Point, q: Quarter, side: Side) -> Rect {
+    let a = to_board(r.min, at, q, side);
+    let b = to_board(r.max, at, q, side);
+    Rect::new(a.x.min(b.x), a.y.min(b.y), a.x.max(b.x), a.y.max(b.y))
+}
+
+impl Part {
+    /// The part's rotation as quarter turns (checked boards only hold multiples of 90).
+    pub fn quarter(&self) -> Quarter {
+        Quarter::from_degrees(self.rotation).unwrap_or_default()
+    }
+}
+
 /// A net: the pins it joins, written `REF.PIN`.
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub struct Net {
@@ -322,6 +349,26 @@ impl Design {
             .iter()
             .position(|p| p.reference == reference)
             .map(|i| PartId(i as u32))
+    }
+
+    /// Board position of a pin (the pad centre), or `None` while its part is unplaced.
+    pub fn pin_position(&self, pin: PinRef) -> Option<Point> {
+        let part = self.part(pin.part);
+        let at = part.at?;
+        let pad = &self.footprints[pin.part.index()].pads[pin.pad as usize];
+        Some(to_board(pad.at, at, part.quarter(), part.side))
+    }
+
+    /// Board rectangle of a part's courtyard, or `None` while it is unplaced.
+    pub fn courtyard(&self, id: PartId) -> Option<Rect> {
+        let part = self.part(id);
+        let at = part.at?;
+        Some(rect_to_board(
+            &self.footprints[id.index()].courtyard,
+            at,
+            part.quarter(),
+            part.side,
+        ))
     }
 
     /// Class of a net, if it names one.

@@ -6,7 +6,9 @@ pub mod footprint;
 pub mod geom;
 mod packages;
 
-pub use board::{Board, Design, Layer, NetId, PartId, PinRef, Shape, Side};
+pub use board::{
+    Board, Design, Layer, NetId, PartId, PinRef, Shape, Side, rect_to_board, to_board,
+};
 pub use check::{Problem, resolve};
 pub use footprint::{Footprint, FootprintSpec, Pad, PadKind, PadShape};
 pub use geom::{Point, Quarter, Rect};
