@@ -1,3 +1,17 @@
-fn main() {
-    println!("Hello, world!");
+//! The `lehr` binary: command-line interface (and, later, the window). Glue only: the
+//! work lives in the library.
+
+mod bench;
+mod cli;
+
+use std::process::ExitCode;
+
+fn main() -> ExitCode {
+    match cli::run() {
+        Ok(code) => code,
+        Err(e) => {
+            eprintln!("lehr: error: {e:#}");
+            ExitCode::from(1)
+        }
+    }
 }

@@ -472,7 +472,7 @@ pub fn resolve(board: Board) -> Result<Design, Vec<Problem>> {
 
     if outline_ok {
         let board_area = board.outline.area();
-        if courtyard_area > board_area {
+        if courtyard_area > board_area * (1.0 + 1e-9) {
             c.report(
                 ItemPath::root("outline"),
                 format!(

@@ -1,0 +1,627 @@
+//! The annealer: the move generator, Metropolis acceptance and the stage loop that the
+//! cooling schedule drives.
+//!
+//! One [`Annealer`] owns a [`Layout`] and a seeded [`Rng`]. The caller advances it in
+//! batches ([`Annealer::run_moves`], [`Annealer::run_stage`]) so that a worker thread can
+//! interleave commands and snapshots, or runs it to the end with [`Annealer::run`].
+//! Nothing here reads a clock except to report speed, and nothing depends on it: the same
+//! design, options and seed give the same placement bit for bit.
+
+use serde::{Deserialize, Serialize};
+
+use super::layout::{Layout, LayoutError, PartMove, Terms, Weights};
+use super::rng::Rng;
+use super::schedule::{Schedule, StageStats};
+use crate::model::{Design, Point, Quarter};
+
+/// Settings of an annealing run. One set of defaults, [`AnnealOptions::default`].
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct AnnealOptions {
+    pub seed: u64,
+    pub schedule: Schedule,
+    /// Cap on the total number of moves (the adaptive schedule steers by it; without a cap
+    /// it assumes 300 stages' worth).
+    pub max_moves: Option<u64>,
+    /// Moves per temperature are `effort * N^(4/3)` for N movable parts (common practice).
+    pub effort: f64,
+    /// Fraction of uphill moves accepted at the start temperature (chi0).
+    pub start_acceptance: f64,
+    /// Start temperature; `None` derives it from sampled moves and `start_acceptance`.
+    pub start_temperature: Option<f64>,
+    /// Energy weights; `None` uses [`Weights::for_design`].
+    pub weights: Option<Weights>,
+    /// Fraction of moves that rotate a part instead of displacing or swapping it.
+    pub rotate_fraction: f64,
+    /// The run is frozen when a stage accepts fewer than this fraction of moves and the
+    /// best energy has not improved for `frozen_stages` stages.
+    pub frozen_acceptance: f64,
+    pub frozen_stages: u32,
+    /// Place every unlocked part at a random spot before starting, ignoring the file's
+    /// positions.
+    pub scatter: bool,
+}
+
+impl Default for AnnealOptions {
+    fn default() -> Self {
+        AnnealOptions {
+            seed: 1,
+            schedule: Schedule::default(),
+            max_moves: None,
+            effort: 4.0,
+            start_acceptance: 0.8,
+            start_temperature: None,
+            weights: None,
+            rotate_fraction: 0.1,
+            frozen_acceptance: 0.02,
+            frozen_stages: 5,
+            scatter: false,
+        }
+    }
+}
+
+/// Why a run cannot start.
+#[derive(Clone, Debug, PartialEq, thiserror::Error)]
+pub enum PlaceError {
+    #[error(transparent)]
+    Layout(#[from] LayoutError),
+    #[error("part {0} is locked but has no position")]
+    LockedUnplaced(String),
+    #[error("the placement grid must be positive, got {0} mm")]
+    BadGrid(f64),
+    #[error("{what} must be {range}, got {value}")]
+    BadOption {
+        what: &'static str,
+        range: &'static str,
+        value: f64,
+    },
+}
+
+/// What happened during one stage (one temperature).
+#[derive(Clone, Copy, Debug, Default, PartialEq, Serialize, Deserialize)]
+pub struct StageReport {
+    pub stage: u32,
+    /// Total moves so far, at the end of the stage.
+    pub moves: u64,
+    pub temperature: f64,
+    pub energy: f64,
+    pub best_energy: f64,
+    pub terms: Terms,
+    pub acceptance: f64,
+    /// Displacement window, mm.
+    pub window: f64,
+}
+
+#[derive(Clone, Copy, Debug, Default)]
+struct StageAccum {
+    moves: u64,
+    accepted: u64,
+    // Welford's running mean and sum of squares of the energy.
+    mean: f64,
+    m2: f64,
+}
+
+impl StageAccum {
+    #[inline]
+    fn push(&mut self, e: f64, accepted: bool) {
+        self.moves += 1;
+        self.accepted += u64::from(accepted);
+        let d = e - self.mean;
+        self.mean += d / self.moves as f64;
+        self.m2 += d * (e - self.mean);
+    }
+
+    fn sigma(&self) -> f64 {
+        if self.moves > 1 {
+            (self.m2 / (self.moves - 1) as f64).sqrt()
+        } else {
+            0.0
+        }
+    }
+}
+
+/// A simulated-annealing placement run in progress.
+pub struct Annealer {
+    layout: Layout,
+    weights: Weights,
+    rng: Rng,
+    opts: AnnealOptions,
+    movable: Vec<u32>,
+    cells: (i64, i64, i64, i64),
+    max_window: f64,
+    t: f64,
+    t0: f64,
+    window: f64,
+    energy: f64,
+    moves: u64,
+    accepted: u64,
+    stage: u32,
+    stage_acc: StageAccum,
+    moves_per_stage: u64,
+    best_seen: f64,
+    best_energy: f64,
+    best_pos: Vec<Point>,
+    best_quarter: Vec<Quarter>,
+    stale_stages: u32,
+    last_acceptance: f64,
+    done: bool,
+    history: Vec<StageReport>,
+}
+
+impl Annealer {
+    /// Prepares a run: gives unplaced parts random positions, builds the layout and sets
+    /// the start temperature.
+    pub fn new(design: &Design, opts: AnnealOptions) -> Result<Annealer, PlaceError> {
+        check_options(&opts)?;
+        let grid = design.board.rules.placement_grid;
+        if !(grid.is_finite() && grid > 0.0) {
+            return Err(PlaceError::BadGrid(grid));
+        }
+        let mut rng = Rng::new(opts.seed);
+        let bounds = design.board.outline.bounds();
+        let cells = (
+            (bounds.min.x / grid).ceil() as i64,
+            ((bounds.max.x / grid).floor() as i64).max((bounds.min.x / grid).ceil() as i64),
+            (bounds.min.y / grid).ceil() as i64,
+            ((bounds.max.y / grid).floor() as i64).max((bounds.min.y / grid).ceil() as i64),
+        );
+        let mut design = design.clone();
+        for part in &mut design.board.parts {
+            if part.locked {
+                if part.at.is_none() {
+                    return Err(PlaceError::LockedUnplaced(part.reference.clone()));
+                }
+            } else if part.at.is_none() || opts.scatter {
+                let cx = cells.0 + i64::from(rng.below((cells.1 - cells.0 + 1) as u32));
+                let cy = cells.2 + i64::from(rng.below((cells.3 - cells.2 + 1) as u32));
+                part.at = Some(Point::new(cx as f64 * grid, cy as f64 * grid));
+            }
+        }
+        let layout = Layout::new(&design)?;
+        let weights = opts.weights.unwrap_or_else(|| Weights::for_design(&design));
+        let movable: Vec<u32> = (0..layout.part_count() as u32)
+            .filter(|&i| !layout.is_locked(i))
+            .collect();
+        let n = movable.len().max(1) as f64;
+        let moves_per_stage = (opts.effort * n.powf(4.0 / 3.0)).ceil().max(100.0) as u64;
+        let max_window = bounds.width().max(bounds.height()).max(grid);
+        let energy = layout.terms().energy(&weights);
+        let mut a = Annealer {
+            best_pos: layout.positions().to_vec(),
+            best_quarter: layout.quarters().to_vec(),
+            layout,
+            weights,
+            rng,
+            movable,
+            cells,
+            max_window,
+            t: 0.0,
+            t0: 0.0,
+            window: max_window,
+            energy,
+            moves: 0,
+            accepted: 0,
+            stage: 0,
+            stage_acc: StageAccum::default(),
+            moves_per_stage,
+            best_seen: energy,
+            best_energy: energy,
+            stale_stages: 0,
+            last_acceptance: 1.0,
+            done: false,
+            history: Vec::new(),
+            opts,
+        };
+        a.t0 = match (a.opts.schedule, a.opts.start_temperature) {
+            (Schedule::Descent, _) => 0.0,
+            (_, Some(t)) => t,
+            (_, None) => a.sample_start_temperature(),
+        };
+        a.t = a.t0;
+        if a.movable.is_empty() {
+            a.done = true;
+        }
+        Ok(a)
+    }
+
+    /// T0 = mean(dE+) / ln(1/chi0) over sampled uphill moves (Kirkpatrick, Gelatt and
+    /// Vecchi's rule). The samples are evaluated and undone, so the state is unchanged.
+    fn sample_start_temperature(&mut self) -> f64 {
+        let samples = self.moves_per_stage.clamp(200, 5000);
+        let (mut sum, mut count) = (0.0, 0u64);
+        for _ in 0..samples {
+            let Some((mv, n)) = self.propose() else {
+                continue;
+            };
+            let de = self.layout.evaluate(&mv[..n]).energy(&self.weights);
+            self.layout.revert();
+            if de > 0.0 {
+                sum += de;
+                count += 1;
+            }
+        }
+        if count == 0 {
+            return 1.0;
+        }
+        (sum / count as f64) / (1.0 / self.opts.start_acceptance).ln()
+    }
+
+    /// Picks a move: a quarter turn, a swap with the part at a random spot within the
+    /// window, or a displacement to that spot. `None` if the draw moved nothing.
+    #[inline]
+    fn propose(&mut self) -> Option<([PartMove; 2], usize)> {
+        let a = self.movable[self.rng.below(self.movable.len() as u32) as usize];
+        let pos = self.layout.position(a);
+        let q = self.layout.quarter(a);
+        if self.opts.rotate_fraction > 0.0
+            && self.layout.is_rotatable(a)
+            && self.rng.unit() < self.opts.rotate_fraction
+        {
+            let nq = Quarter::from_index(q.index() + 1 + self.rng.below(3) as usize);
+            let m = PartMove {
+                part: a,
+                at: pos,
+                quarter: nq,
+            };
+            return Some(([m, m], 1));
+        }
+        let g = self.layout.grid();
+        let w = ((self.window / g).round() as u32).max(1);
+        let cx = (pos.x / g).round() as i64;
+        let cy = (pos.y / g).round() as i64;
+        let tx = (cx + self.rng.symmetric(w)).clamp(self.cells.0, self.cells.1);
+        let ty = (cy + self.rng.symmetric(w)).clamp(self.cells.2, self.cells.3);
+        let target = Point::new(tx as f64 * g, ty as f64 * g);
+        if target == pos {
+            return None;
+        }
+        let ma = PartMove {
+            part: a,
+            at: target,
+            quarter: q,
+        };
+        if let Some(b) = self.layout.part_at(target, a)
+            && !self.layout.is_locked(b)
+        {
+            let pb = self.layout.position(b);
+            let ma = PartMove { at: pb, ..ma };
+            let mb = PartMove {
+                part: b,
+                at: pos,
+                quarter: self.layout.quarter(b),
+            };
+            return Some(([ma, mb], 2));
+        }
+        Some(([ma, ma], 1))
+    }
+
+    /// One Metropolis step at the current temperature. Returns whether a move was
+    /// accepted.
+    #[inline]
+    fn step(&mut self) -> bool {
+        let Some((mv, n)) = self.propose() else {
+            self.stage_acc.push(self.energy, false);
+            self.moves += 1;
+            return false;
+        };
+        let de = self.layout.evaluate(&mv[..n]).energy(&self.weights);
+        let accept = de <= 0.0 || (self.t > 0.0 && self.rng.unit() < (-de / self.t).exp());
+        if accept {
+            self.layout.commit();
+            self.energy += de;
+            self.accepted += 1;
+            if self.energy < self.best_seen {
+                self.best_seen = self.energy;
+            }
+        } else {
+            self.layout.revert();
+        }
+        self.moves += 1;
+        self.stage_acc.push(self.energy, accept);
+        accept
+    }
+
+    /// Runs up to `n` moves (fewer if the run ends), ending stages as they fill.
+    pub fn run_moves(&mut self, n: u64) {
+        let mut left = n;
+        while left > 0 && !self.done {
+            let room = self.moves_per_stage - self.stage_acc.moves;
+            let budget_room = self
+                .opts
+                .max_moves
+                .map_or(u64::MAX, |m| m.saturating_sub(self.moves));
+            let k = left.min(room).min(budget_room);
+            for _ in 0..k {
+                self.step();
+            }
+            left -= k;
+            if self.stage_acc.moves >= self.moves_per_stage || budget_room <= k {
+                self.end_stage();
+            }
+        }
+    }
+
+    /// Runs the rest of the current stage.
+    pub fn run_stage(&mut self) {
+        let room = self.moves_per_stage - self.stage_acc.moves;
+        self.run_moves(room.max(1));
+    }
+
+    /// Runs until frozen or out of budget, calling `observe` after every stage; stops
+    /// early when `observe` returns false.
+    pub fn run(&mut self, mut observe: impl FnMut(&StageReport) -> bool) {
+        while !self.done {
+            self.run_stage();
+            if let Some(r) = self.history.last()
+                && !observe(r)
+            {
+                break;
+            }
+        }
+        self.restore_best();
+    }
+
+    fn end_stage(&mut self) {
+        let acc = if self.stage_acc.moves > 0 {
+            self.stage_acc.accepted as f64 / self.stage_acc.moves as f64
+        } else {
+            0.0
+        };
+        self.last_acceptance = acc;
+        // Keep the acceptance of displacements near 0.44 by resizing the window (the
+        // VPR placer's rule: w <- w * (1 - 0.44 + acceptance)).
+        let g = self.layout.grid();
+        self.window = (self.window * (1.0 - 0.44 + acc)).clamp(g, self.max_window);
+        // Drop accumulated rounding once per stage.
+        self.layout.resync();
+        self.energy = self.layout.terms().energy(&self.weights);
+        let scale = self.best_energy.abs().max(1e-12);
+        if self.energy < self.best_energy - 1e-7 * scale {
+            self.best_energy = self.energy;
+            self.best_pos.copy_from_slice(self.layout.positions());
+            self.best_quarter.copy_from_slice(self.layout.quarters());
+            self.stale_stages = 0;
+        } else {
+            self.stale_stages += 1;
+            if self.energy < self.best_energy {
+                self.best_energy = self.energy;
+                self.best_pos.copy_from_slice(self.layout.positions());
+                self.best_quarter.copy_from_slice(self.layout.quarters());
+            }
+        }
+        self.best_seen = self.best_seen.min(self.best_energy);
+        self.stage += 1;
+        self.history.push(StageReport {
+            stage: self.stage,
+            moves: self.moves,
+            temperature: self.t,
+            energy: self.energy,
+            best_energy: self.best_seen,
+            terms: self.layout.terms(),
+            acceptance: acc,
+            window: self.window,
+        });
+        let budget = self.budget();
+        let stats = StageStats {
+            temperature: self.t,
+            acceptance: acc,
+            energy_sigma: self.stage_acc.sigma(),
+            progress: self.moves as f64 / budget as f64,
+        };
+        self.stage_acc = StageAccum::default();
+        let cold = self.t == 0.0 || acc < self.opts.frozen_acceptance;
+        if (cold && self.stale_stages >= self.opts.frozen_stages)
+            || self.opts.max_moves.is_some_and(|m| self.moves >= m)
+            || self.moves >= budget && self.opts.schedule.needs_budget()
+        {
+            self.done = true;
+            return;
+        }
+        self.t = self.opts.schedule.next(&stats, self.t0);
+        if self.t < 1e-9 * self.t0 {
+            self.t = 0.0;
+        }
+    }
+
+    /// The move budget the adaptive schedule steers by.
+    fn budget(&self) -> u64 {
+        self.opts
+            .max_moves
+            .unwrap_or(self.moves_per_stage * 300)
+            .max(1)
+    }
+
+    /// Puts the best state seen at a stage end back, if it beats the current one.
+    pub fn restore_best(&mut self) {
+        if self.best_energy < self.energy {
+            for i in 0..self.layout.part_count() as u32 {
+                let (p, q) = (self.best_pos[i as usize], self.best_quarter[i as usize]);
+                if self.layout.position(i) != p || self.layout.quarter(i) != q {
+                    self.layout.apply(&[PartMove {
+                        part: i,
+                        at: p,
+                        quarter: q,
+                    }]);
+                }
+            }
+            self.layout.resync();
+            self.energy = self.layout.terms().energy(&self.weights);
+        }
+    }
+
+    /// Raises the temperature mid-run to `fraction` of the start temperature (at least the
+    /// current one) and reopens the window, so a frozen or stuck run explores again.
+    pub fn reheat(&mut self, fraction: f64) {
+        if self.opts.schedule.is_descent() {
+            return;
+        }
+        self.t = self.t.max(self.t0 * fraction.clamp(0.0, 1.0));
+        self.window = self
+            .window
+            .max(self.max_window * fraction.clamp(0.0, 1.0).sqrt());
+        self.stale_stages = 0;
+        self.done = self.movable.is_empty();
+    }
+
+    pub fn is_done(&self) -> bool {
+        self.done
+    }
+    pub fn temperature(&self) -> f64 {
+        self.t
+    }
+    pub fn start_temperature(&self) -> f64 {
+        self.t0
+    }
+    pub fn energy(&self) -> f64 {
+        self.energy
+    }
+    pub fn best_energy(&self) -> f64 {
+        self.best_seen
+    }
+    pub fn moves(&self) -> u64 {
+        self.moves
+    }
+    pub fn accepted(&self) -> u64 {
+        self.accepted
+    }
+    pub fn window(&self) -> f64 {
+        self.window
+    }
+    pub fn moves_per_stage(&self) -> u64 {
+        self.moves_per_stage
+    }
+    /// Acceptance ratio of the last completed stage.
+    pub fn acceptance(&self) -> f64 {
+        self.last_acceptance
+    }
+    pub fn weights(&self) -> &Weights {
+        &self.weights
+    }
+    pub fn layout(&self) -> &Layout {
+        &self.layout
+    }
+    pub fn layout_mut(&mut self) -> &mut Layout {
+        &mut self.layout
+    }
+    pub fn options(&self) -> &AnnealOptions {
+        &self.opts
+    }
+    pub fn history(&self) -> &[StageReport] {
+        &self.history
+    }
+    pub fn rng_mut(&mut self) -> &mut Rng {
+        &mut self.rng
+    }
+
+    /// Sets the temperature directly (fixed-temperature experiments, manual control).
+    pub fn set_temperature(&mut self, t: f64) {
+        self.t = t.max(0.0);
+    }
+
+    /// Changes the energy weights; the running energy follows.
+    pub fn set_weights(&mut self, w: Weights) {
+        self.weights = w;
+        self.energy = self.layout.terms().energy(&w);
+        self.best_energy = f64::INFINITY;
+        self.best_seen = self.energy;
+    }
+
+    /// Changes the schedule mid-run (the temperature carries over).
+    pub fn set_schedule(&mut self, s: Schedule) {
+        if self.opts.schedule.is_descent() && !s.is_descent() && self.t0 == 0.0 {
+            self.opts.schedule = s;
+            self.t0 = self.sample_start_temperature();
+            self.t = self.t0;
+        } else {
+            self.opts.schedule = s;
+            if s.is_descent() {
+                self.t = 0.0;
+            }
+        }
+        self.done = self.movable.is_empty();
+        self.stale_stages = 0;
+    }
+
+    /// Moves one part by hand (GUI drag); locked state is the caller's business.
+    pub fn move_part(&mut self, part: u32, at: Point, quarter: Quarter) {
+        self.layout.apply(&[PartMove { part, at, quarter }]);
+        self.energy = self.layout.terms().energy(&self.weights);
+        self.best_energy = f64::INFINITY;
+    }
+
+    /// Locks or unlocks a part; locked parts leave the move set.
+    pub fn set_locked(&mut self, part: u32, locked: bool) {
+        self.layout.set_locked(part, locked);
+        self.movable = (0..self.layout.part_count() as u32)
+            .filter(|&i| !self.layout.is_locked(i))
+            .collect();
+        if self.movable.is_empty() {
+            self.done = true;
+        }
+    }
+
+    /// Proposes a random move and evaluates it, incrementally or by full recomputation,
+    /// without keeping it; returns the energy change (benchmarks and tests).
+    pub fn probe(&mut self, full: bool) -> f64 {
+        let Some((mv, n)) = self.propose() else {
+            return 0.0;
+        };
+        if full {
+            let before = self.layout.terms().energy(&self.weights);
+            self.layout.full_terms_with(&mv[..n]).energy(&self.weights) - before
+        } else {
+            let de = self.layout.evaluate(&mv[..n]).energy(&self.weights);
+            self.layout.revert();
+            de
+        }
+    }
+
+    /// Runs `n` single Metropolis steps at a fixed temperature without stage logic,
+    /// calling `visit` after each (used by the Boltzmann-distribution test).
+    pub fn sample_at(&mut self, t: f64, n: u64, mut visit: impl FnMut(&Layout)) {
+        let saved = self.t;
+        self.t = t;
+        for _ in 0..n {
+            self.step();
+            visit(&self.layout);
+        }
+        self.t = saved;
+        self.stage_acc = StageAccum::default();
+    }
+}
+
+fn check_options(o: &AnnealOptions) -> Result<(), PlaceError> {
+    let bad = |what, range, value: f64| Err(PlaceError::BadOption { what, range, value });
+    if !(o.effort.is_finite() && o.effort > 0.0 && o.effort <= 1e4) {
+        return bad("effort", "between 0 and 10000", o.effort);
+    }
+    if !(o.start_acceptance > 0.0 && o.start_acceptance < 1.0) {
+        return bad(
+            "start acceptance",
+            "strictly between 0 and 1",
+            o.start_acceptance,
+        );
+    }
+    if let Some(t) = o.start_temperature
+        && !(t.is_finite() && t >= 0.0)
+    {
+        return bad("start temperature", "a finite number >= 0", t);
+    }
+    if !(0.0..=1.0).contains(&o.rotate_fraction) {
+        return bad("rotate fraction", "between 0 and 1", o.rotate_fraction);
+    }
+    match o.schedule {
+        Schedule::Geometric { alpha } if !(alpha > 0.0 && alpha < 1.0) => {
+            bad("geometric alpha", "strictly between 0 and 1", alpha)
+        }
+        Schedule::LundyMees { beta } if !(beta > 0.0 && beta.is_finite()) => {
+            bad("lundy-mees beta", "a positive number", beta)
+        }
+        Schedule::LamDelosme { target } if !(target > 0.0 && target < 1.0) => {
+            bad("lam-delosme target", "strictly between 0 and 1", target)
+        }
+        Schedule::Huang { lambda } if !(lambda > 0.0 && lambda.is_finite()) => {
+            bad("huang lambda", "a positive number", lambda)
+        }
+        _ => Ok(()),
+    }
+}

@@ -1,0 +1,898 @@
+//! The placement problem: part positions and the incremental placement energy.
+//!
+//! E = w_wl * WL + w_ov * OV + w_out * OUT + w_ko * KO, where
+//! - WL is the half-perimeter wirelength (HPWL) of every net, times the net's weight, with
+//!   pins at their true pad positions after rotation and side;
+//! - OV is the total pairwise overlap area of courtyards grown by half the clearance, for
+//!   parts that can collide (same side, or either one has through-holes);
+//! - OUT is the courtyard area lying outside the board outline;
+//! - KO is the courtyard area inside part keep-outs on the part's side.
+//!
+//! A move is evaluated by [`Layout::evaluate`], which changes the pins and net boxes of the
+//! moved parts in place and returns the change of each term; the caller then either
+//! [`Layout::commit`]s or [`Layout::revert`]s. Only the moved parts' pins, their nets and
+//! the parts near them (found through the spatial hash) are visited, so the cost of a move
+//! does not grow with the board.
+//!
+//! **Invariant:** between moves, the cached pin positions, net boxes, per-net lengths,
+//! spatial hash and running term totals agree with a full recomputation from the part
+//! positions ([`Layout::full_terms`]) up to floating-point rounding.
+
+use serde::{Deserialize, Serialize};
+
+use super::hash::SpatialHash;
+use crate::model::board::{Design, Layers, Shape, rect_to_board, to_board};
+use crate::model::{Point, Quarter, Rect, Side};
+
+/// Nets with more pins than this keep VPR-style edge counts so a move updates their box
+/// in constant time; smaller nets are simply re-scanned (cheaper at that size).
+const LARGE_NET: usize = 12;
+
+/// The energy terms, unweighted (lengths in mm, areas in mm^2).
+#[derive(Clone, Copy, Debug, Default, PartialEq, Serialize, Deserialize)]
+pub struct Terms {
+    /// Net-weighted HPWL, mm.
+    pub wirelength: f64,
+    /// Overlap area of grown courtyards, mm^2.
+    pub overlap: f64,
+    /// Courtyard area outside the outline, mm^2.
+    pub outside: f64,
+    /// Courtyard area inside part keep-outs, mm^2.
+    pub keepout: f64,
+}
+
+impl Terms {
+    pub fn energy(&self, w: &Weights) -> f64 {
+        w.wirelength * self.wirelength
+            + w.overlap * self.overlap
+            + w.outside * self.outside
+            + w.keepout * self.keepout
+    }
+
+    fn add(&mut self, d: &Terms) {
+        self.wirelength += d.wirelength;
+        self.overlap += d.overlap;
+        self.outside += d.outside;
+        self.keepout += d.keepout;
+    }
+
+    /// Total area of the three legality terms.
+    pub fn violation(&self) -> f64 {
+        self.overlap + self.outside + self.keepout
+    }
+}
+
+/// Weights of the energy terms. Wirelength is per mm; the area terms are per mm^2.
+#[derive(Clone, Copy, Debug, PartialEq, Serialize, Deserialize)]
+pub struct Weights {
+    pub wirelength: f64,
+    pub overlap: f64,
+    pub outside: f64,
+    pub keepout: f64,
+}
+
+impl Weights {
+    /// Defaults scaled to the board: an area penalty per mm^2 of `2 k / s`, where `s` is the
+    /// mean courtyard side and `k` the mean net-weighted pin count per part. Sliding one
+    /// part a distance d into another then costs about `2 k d`, twice the most wirelength
+    /// the move could save, so overlap never pays in the final state while small
+    /// intrusions stay cheap enough for the hot phase to pass parts through each other.
+    pub fn for_design(design: &Design) -> Weights {
+        let n = design.footprints.len().max(1) as f64;
+        let s = design
+            .footprints
+            .iter()
+            .map(|f| f.courtyard.area().sqrt())
+            .sum::<f64>()
+            / n;
+        let pin_weight: f64 = design
+            .net_pins
+            .iter()
+            .zip(&design.board.nets)
+            .filter(|(pins, _)| pins.len() >= 2)
+            .map(|(pins, net)| pins.len() as f64 * net.weight)
+            .sum();
+        let k = (pin_weight / n).max(1.0);
+        let area = 2.0 * k / s.max(0.1);
+        Weights {
+            wirelength: 1.0,
+            overlap: area,
+            outside: area,
+            keepout: area,
+        }
+    }
+
+    /// The same weights with the three legality terms multiplied by `f`.
+    pub fn with_legality_factor(&self, f: f64) -> Weights {
+        Weights {
+            wirelength: self.wirelength,
+            overlap: self.overlap * f,
+            outside: self.outside * f,
+            keepout: self.keepout * f,
+        }
+    }
+}
+
+/// The position and turn of one part in a move.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct PartMove {
+    pub part: u32,
+    pub at: Point,
+    pub quarter: Quarter,
+}
+
+#[derive(Clone, Copy, Debug, Default, PartialEq)]
+struct NetBox {
+    xmin: f64,
+    xmax: f64,
+    ymin: f64,
+    ymax: f64,
+    nxmin: u32,
+    nxmax: u32,
+    nymin: u32,
+    nymax: u32,
+}
+
+impl NetBox {
+    fn hpwl(&self) -> f64 {
+        (self.xmax - self.xmin) + (self.ymax - self.ymin)
+    }
+}
+
+/// Updates one axis of a box's bounds and edge counts for a pin moving from `old` to
+/// `new` (after the VPR placer's incremental bounding box). Returns false when the pin
+/// was the only one on an edge it left, so the box must be rescanned.
+#[inline]
+fn update_axis(
+    min: &mut f64,
+    max: &mut f64,
+    nmin: &mut u32,
+    nmax: &mut u32,
+    old: f64,
+    new: f64,
+) -> bool {
+    if new > old {
+        if new > *max || old == *max {
+            // Either it passes the old maximum, or it was on it and moves beyond it.
+            *max = new;
+            *nmax = 1;
+        } else if new == *max {
+            *nmax += 1;
+        }
+        if old == *min {
+            if *nmin > 1 {
+                *nmin -= 1;
+            } else {
+                return false;
+            }
+        }
+    } else if new < old {
+        if new < *min || old == *min {
+            *min = new;
+            *nmin = 1;
+        } else if new == *min {
+            *nmin += 1;
+        }
+        if old == *max {
+            if *nmax > 1 {
+                *nmax -= 1;
+            } else {
+                return false;
+            }
+        }
+    }
+    true
+}
+
+struct KeepoutArea {
+    name: String,
+    shape: Shape,
+    bounds: Rect,
+    mask: u8,
+}
+
+fn layers_mask(l: Layers) -> u8 {
+    match l {
+        Layers::Top => 1,
+        Layers::Bottom => 2,
+        Layers::Both => 3,
+    }
+}
+
+/// Placement state with incrementally maintained energy terms. See the module docs.
+pub struct Layout {
+    // Static description, indexed by part, pin (connected pins only) or net.
+    grid: f64,
+    locked: Vec<bool>,
+    rotatable: Vec<bool>,
+    /// 1 = top, 2 = bottom, 3 = both (through-hole parts).
+    mask: Vec<u8>,
+    court_off: Vec<[Rect; 4]>,
+    grown_off: Vec<[Rect; 4]>,
+    part_pin_start: Vec<u32>,
+    pin_net: Vec<u32>,
+    pin_off: Vec<[Point; 4]>,
+    net_pin_start: Vec<u32>,
+    net_pin_list: Vec<u32>,
+    net_weight: Vec<f64>,
+    outline: Shape,
+    outline_bounds: Rect,
+    outline_is_rect: bool,
+    keepouts: Vec<KeepoutArea>,
+
+    // Dynamic state.
+    pos: Vec<Point>,
+    quarter: Vec<Quarter>,
+    court: Vec<Rect>,
+    grown: Vec<Rect>,
+    pin_x: Vec<f64>,
+    pin_y: Vec<f64>,
+    bbox: Vec<NetBox>,
+    net_len: Vec<f64>,
+    terms: Terms,
+    hash: SpatialHash,
+
+    // Scratch, reused across moves so a move allocates nothing.
+    stamp: Vec<u32>,
+    stamp_gen: u32,
+    net_stamp: Vec<u32>,
+    net_gen: u32,
+    net_dirty: Vec<bool>,
+    undo_pins: Vec<(u32, f64, f64)>,
+    undo_nets: Vec<(u32, NetBox, f64)>,
+    pending: [PartMove; 2],
+    pending_n: usize,
+    pending_delta: Terms,
+}
+
+/// Why a layout cannot be built from a design.
+#[derive(Clone, Debug, PartialEq, thiserror::Error)]
+pub enum LayoutError {
+    #[error("part {0} has no position; give it one or let the placer choose (unlocked)")]
+    Unplaced(String),
+}
+
+impl Layout {
+    /// Builds the layout from a checked design whose parts all have positions.
+    pub fn new(design: &Design) -> Result<Layout, LayoutError> {
+        let board = &design.board;
+        let n = board.parts.len();
+        let half_clear = board.rules.clearance / 2.0;
+        let mut layout = Layout {
+            grid: board.rules.placement_grid,
+            locked: Vec::with_capacity(n),
+            rotatable: Vec::with_capacity(n),
+            mask: Vec::with_capacity(n),
+            court_off: Vec::with_capacity(n),
+            grown_off: Vec::with_capacity(n),
+            part_pin_start: Vec::with_capacity(n + 1),
+            pin_net: Vec::new(),
+            pin_off: Vec::new(),
+            net_pin_start: Vec::new(),
+            net_pin_list: Vec::new(),
+            net_weight: board.nets.iter().map(|n| n.weight).collect(),
+            outline: board.outline.clone(),
+            outline_bounds: board.outline.bounds(),
+            outline_is_rect: matches!(board.outline, Shape::Rect { .. }),
+            keepouts: board
+                .keepouts
+                .iter()
+                .filter(|k| k.parts)
+                .map(|k| KeepoutArea {
+                    name: k.name.clone(),
+                    shape: k.shape.clone(),
+                    bounds: k.shape.bounds(),
+                    mask: layers_mask(k.layers),
+                })
+                .collect(),
+            pos: Vec::with_capacity(n),
+            quarter: Vec::with_capacity(n),
+            court: Vec::with_capacity(n),
+            grown: Vec::with_capacity(n),
+            pin_x: Vec::new(),
+            pin_y: Vec::new(),
+            bbox: Vec::new(),
+            net_len: Vec::new(),
+            terms: Terms::default(),
+            hash: SpatialHash::new(Rect::default(), 1.0, 1),
+            stamp: vec![0; n],
+            stamp_gen: 0,
+            net_stamp: vec![0; board.nets.len()],
+            net_gen: 0,
+            net_dirty: vec![false; board.nets.len()],
+            undo_pins: Vec::new(),
+            undo_nets: Vec::new(),
+            pending: [PartMove {
+                part: 0,
+                at: Point::default(),
+                quarter: Quarter::R0,
+            }; 2],
+            pending_n: 0,
+            pending_delta: Terms::default(),
+        };
+
+        // Which net each pad is on.
+        let mut pad_net: Vec<Vec<Option<u32>>> = design
+            .footprints
+            .iter()
+            .map(|f| vec![None; f.pads.len()])
+            .collect();
+        for (ni, pins) in design.net_pins.iter().enumerate() {
+            for pin in pins {
+                pad_net[pin.part.index()][pin.pad as usize] = Some(ni as u32);
+            }
+        }
+
+        let mut part_pins_of_net: Vec<Vec<u32>> = vec![Vec::new(); board.nets.len()];
+        for (i, (part, fp)) in board.parts.iter().zip(&design.footprints).enumerate() {
+            let at = part
+                .at
+                .ok_or_else(|| LayoutError::Unplaced(part.reference.clone()))?;
+            let side = part.side;
+            let mask = if fp.has_through_holes() {
+                3
+            } else {
+                match side {
+                    Side::Top => 1,
+                    Side::Bottom => 2,
+                }
+            };
+            let origin = Point::default();
+            let court: [Rect; 4] =
+                Quarter::ALL.map(|q| rect_to_board(&fp.courtyard, origin, q, side));
+            let grown = court.map(|r| r.inflate(half_clear));
+            layout.part_pin_start.push(layout.pin_net.len() as u32);
+            let mut rotatable = court.iter().any(|r| *r != court[0]);
+            for (pad, net) in fp.pads.iter().zip(&pad_net[i]) {
+                if let Some(net) = net {
+                    let offs = Quarter::ALL.map(|q| to_board(pad.at, origin, q, side));
+                    rotatable |= offs.iter().any(|o| *o != offs[0]);
+                    part_pins_of_net[*net as usize].push(layout.pin_net.len() as u32);
+                    layout.pin_net.push(*net);
+                    layout.pin_off.push(offs);
+                }
+            }
+            layout.locked.push(part.locked);
+            layout.rotatable.push(rotatable);
+            layout.mask.push(mask);
+            layout.court_off.push(court);
+            layout.grown_off.push(grown);
+            layout.pos.push(at);
+            layout.quarter.push(part.quarter());
+        }
+        layout.part_pin_start.push(layout.pin_net.len() as u32);
+        for pins in &part_pins_of_net {
+            layout.net_pin_start.push(layout.net_pin_list.len() as u32);
+            layout.net_pin_list.extend_from_slice(pins);
+        }
+        layout.net_pin_start.push(layout.net_pin_list.len() as u32);
+
+        // Spatial hash over the board and its surroundings; bins about twice the mean
+        // grown courtyard side, so a typical part touches one to four bins.
+        let mut area = layout.outline_bounds;
+        let mut side_sum = 0.0;
+        for i in 0..n {
+            let q = layout.quarter[i].index();
+            let r = layout.grown_off[i][q].translate(layout.pos[i]);
+            area = area.union(&r);
+            side_sum += (r.width() + r.height()) / 2.0;
+        }
+        let bin = 2.0 * side_sum / n.max(1) as f64;
+        layout.hash = SpatialHash::new(area.inflate(1.0), bin.max(0.1), (4 * n).max(64));
+
+        layout.rebuild();
+        Ok(layout)
+    }
+
+    /// Recomputes every cache and running total from the part positions.
+    pub fn rebuild(&mut self) {
+        let n = self.pos.len();
+        self.court.clear();
+        self.grown.clear();
+        for i in 0..n {
+            let q = self.quarter[i].index();
+            self.court.push(self.court_off[i][q].translate(self.pos[i]));
+            self.grown.push(self.grown_off[i][q].translate(self.pos[i]));
+        }
+        let np = self.pin_net.len();
+        self.pin_x.resize(np, 0.0);
+        self.pin_y.resize(np, 0.0);
+        for i in 0..n {
+            let q = self.quarter[i].index();
+            for p in self.pins_of(i) {
+                let o = self.pin_off[p][q];
+                self.pin_x[p] = self.pos[i].x + o.x;
+                self.pin_y[p] = self.pos[i].y + o.y;
+            }
+        }
+        let nn = self.net_weight.len();
+        self.bbox = (0..nn).map(|k| self.scan_box(k)).collect();
+        self.net_len = self.bbox.iter().map(NetBox::hpwl).collect();
+        // Rebuild the hash from scratch.
+        let area = self.hash_area();
+        self.hash = SpatialHash::new(area.0, area.1, (4 * n).max(64));
+        for i in 0..n {
+            self.hash.insert(i as u32, &self.grown[i]);
+        }
+        self.terms = self.full_terms();
+    }
+
+    fn hash_area(&self) -> (Rect, f64) {
+        let n = self.pos.len();
+        let mut area = self.outline_bounds;
+        let mut side_sum = 0.0;
+        for r in &self.grown {
+            area = area.union(r);
+            side_sum += (r.width() + r.height()) / 2.0;
+        }
+        (
+            area.inflate(1.0),
+            (2.0 * side_sum / n.max(1) as f64).max(0.1),
+        )
+    }
+
+    #[inline]
+    fn pins_of(&self, part: usize) -> std::ops::Range<usize> {
+        self.part_pin_start[part] as usize..self.part_pin_start[part + 1] as usize
+    }
+
+    #[inline]
+    fn net_pins(&self, net: usize) -> &[u32] {
+        &self.net_pin_list[self.net_pin_start[net] as usize..self.net_pin_start[net + 1] as usize]
+    }
+
+    /// The box of a net from its pins' current positions, with edge counts.
+    fn scan_box(&self, net: usize) -> NetBox {
+        let pins = self.net_pins(net);
+        if pins.is_empty() {
+            return NetBox::default();
+        }
+        let mut b = NetBox {
+            xmin: f64::INFINITY,
+            xmax: f64::NEG_INFINITY,
+            ymin: f64::INFINITY,
+            ymax: f64::NEG_INFINITY,
+            ..NetBox::default()
+        };
+        for &p in pins {
+            let (x, y) = (self.pin_x[p as usize], self.pin_y[p as usize]);
+            if x < b.xmin {
+                b.xmin = x;
+                b.nxmin = 1;
+            } else if x == b.xmin {
+                b.nxmin += 1;
+            }
+            if x > b.xmax {
+                b.xmax = x;
+                b.nxmax = 1;
+            } else if x == b.xmax {
+                b.nxmax += 1;
+            }
+            if y < b.ymin {
+                b.ymin = y;
+                b.nymin = 1;
+            } else if y == b.ymin {
+                b.nymin += 1;
+            }
+            if y > b.ymax {
+                b.ymax = y;
+                b.nymax = 1;
+            } else if y == b.ymax {
+                b.nymax += 1;
+            }
+        }
+        b
+    }
+
+    /// Courtyard area outside the outline.
+    #[inline]
+    fn outside_of(&self, r: &Rect) -> f64 {
+        let inside = if self.outline_is_rect {
+            self.outline_bounds.overlap_area(r)
+        } else if !self.outline_bounds.intersects(r) {
+            0.0
+        } else {
+            self.outline.overlap_with_rect(r)
+        };
+        (r.area() - inside).max(0.0)
+    }
+
+    /// Courtyard area inside keep-outs that apply to the part's sides.
+    #[inline]
+    fn keepout_of(&self, r: &Rect, mask: u8) -> f64 {
+        let mut a = 0.0;
+        for k in &self.keepouts {
+            if k.mask & mask != 0 && k.bounds.intersects(r) {
+                a += k.shape.overlap_with_rect(r);
+            }
+        }
+        a
+    }
+
+    /// Overlap of rectangle `r` (of a part with `mask`) with every part not in `exclude`.
+    #[inline]
+    fn overlap_near(&mut self, r: &Rect, mask: u8, exclude: &[u32]) -> f64 {
+        self.stamp_gen = self.stamp_gen.wrapping_add(1);
+        if self.stamp_gen == 0 {
+            self.stamp.fill(0);
+            self.stamp_gen = 1;
+        }
+        let Layout {
+            hash,
+            stamp,
+            stamp_gen,
+            grown,
+            mask: masks,
+            ..
+        } = self;
+        let mut sum = 0.0;
+        hash.for_each_near(r, |id| {
+            let i = id as usize;
+            if stamp[i] == *stamp_gen {
+                return;
+            }
+            stamp[i] = *stamp_gen;
+            if masks[i] & mask == 0 || exclude.contains(&id) {
+                return;
+            }
+            sum += grown[i].overlap_area(r);
+        });
+        sum
+    }
+
+    /// Evaluates moving one or two parts, applying the change to pins and net boxes
+    /// tentatively. Returns the change of each term. Must be followed by [`Self::commit`]
+    /// or [`Self::revert`] before the next call.
+    pub fn evaluate(&mut self, moves: &[PartMove]) -> Terms {
+        debug_assert!(self.undo_pins.is_empty() && self.undo_nets.is_empty());
+        debug_assert!(!moves.is_empty() && moves.len() <= 2);
+        let mut ids = [u32::MAX; 2];
+        for (k, m) in moves.iter().enumerate() {
+            ids[k] = m.part;
+            self.pending[k] = *m;
+        }
+        self.pending_n = moves.len();
+        let ids = &ids[..moves.len()];
+        let mut d = Terms::default();
+
+        // Area terms: each moved part against the parts that stay, then the moved pair.
+        let mut new_grown = [Rect::default(); 2];
+        for (k, m) in moves.iter().enumerate() {
+            let i = m.part as usize;
+            let q = m.quarter.index();
+            let mask = self.mask[i];
+            let old_g = self.grown[i];
+            let new_g = self.grown_off[i][q].translate(m.at);
+            new_grown[k] = new_g;
+            let old_c = self.court[i];
+            let new_c = self.court_off[i][q].translate(m.at);
+            d.overlap +=
+                self.overlap_near(&new_g, mask, ids) - self.overlap_near(&old_g, mask, ids);
+            d.outside += self.outside_of(&new_c) - self.outside_of(&old_c);
+            if !self.keepouts.is_empty() {
+                d.keepout += self.keepout_of(&new_c, mask) - self.keepout_of(&old_c, mask);
+            }
+        }
+        if moves.len() == 2 {
+            let (a, b) = (moves[0].part as usize, moves[1].part as usize);
+            if self.mask[a] & self.mask[b] != 0 {
+                d.overlap += new_grown[0].overlap_area(&new_grown[1])
+                    - self.grown[a].overlap_area(&self.grown[b]);
+            }
+        }
+
+        // Wirelength: move the pins, then update each touched net's box once.
+        self.net_gen = self.net_gen.wrapping_add(1);
+        if self.net_gen == 0 {
+            self.net_stamp.fill(0);
+            self.net_gen = 1;
+        }
+        for m in moves {
+            let i = m.part as usize;
+            let q = m.quarter.index();
+            for p in self.pins_of(i) {
+                let o = self.pin_off[p][q];
+                let (nx, ny) = (m.at.x + o.x, m.at.y + o.y);
+                let (ox, oy) = (self.pin_x[p], self.pin_y[p]);
+                if nx == ox && ny == oy {
+                    continue;
+                }
+                self.undo_pins.push((p as u32, ox, oy));
+                self.pin_x[p] = nx;
+                self.pin_y[p] = ny;
+                let net = self.pin_net[p] as usize;
+                if self.net_stamp[net] != self.net_gen {
+                    self.net_stamp[net] = self.net_gen;
+                    self.undo_nets
+                        .push((net as u32, self.bbox[net], self.net_len[net]));
+                    self.net_dirty[net] = self.net_pins(net).len() <= LARGE_NET;
+                }
+                if !self.net_dirty[net] {
+                    let b = &mut self.bbox[net];
+                    let ok_x =
+                        update_axis(&mut b.xmin, &mut b.xmax, &mut b.nxmin, &mut b.nxmax, ox, nx);
+                    let ok_y =
+                        update_axis(&mut b.ymin, &mut b.ymax, &mut b.nymin, &mut b.nymax, oy, ny);
+                    if !(ok_x && ok_y) {
+                        self.net_dirty[net] = true;
+                    }
+                }
+            }
+        }
+        for k in 0..self.undo_nets.len() {
+            let (net, _, old_len) = self.undo_nets[k];
+            let net = net as usize;
+            if self.net_dirty[net] {
+                self.bbox[net] = self.scan_box(net);
+                self.net_dirty[net] = false;
+            }
+            let len = self.bbox[net].hpwl();
+            self.net_len[net] = len;
+            d.wirelength += self.net_weight[net] * (len - old_len);
+        }
+        self.pending_delta = d;
+        d
+    }
+
+    /// Keeps the move last evaluated.
+    pub fn commit(&mut self) {
+        for k in 0..self.pending_n {
+            let m = self.pending[k];
+            let i = m.part as usize;
+            let q = m.quarter.index();
+            let new_g = self.grown_off[i][q].translate(m.at);
+            self.hash.relocate(m.part, &self.grown[i], &new_g);
+            self.grown[i] = new_g;
+            self.court[i] = self.court_off[i][q].translate(m.at);
+            self.pos[i] = m.at;
+            self.quarter[i] = m.quarter;
+        }
+        let d = self.pending_delta;
+        self.terms.add(&d);
+        self.pending_n = 0;
+        self.undo_pins.clear();
+        self.undo_nets.clear();
+    }
+
+    /// Undoes the move last evaluated.
+    pub fn revert(&mut self) {
+        for &(p, x, y) in self.undo_pins.iter().rev() {
+            self.pin_x[p as usize] = x;
+            self.pin_y[p as usize] = y;
+        }
+        for &(net, b, len) in self.undo_nets.iter().rev() {
+            self.bbox[net as usize] = b;
+            self.net_len[net as usize] = len;
+        }
+        self.pending_n = 0;
+        self.undo_pins.clear();
+        self.undo_nets.clear();
+    }
+
+    /// Applies a move unconditionally (evaluate + commit).
+    pub fn apply(&mut self, moves: &[PartMove]) -> Terms {
+        let d = self.evaluate(moves);
+        self.commit();
+        d
+    }
+
+    /// The running totals of the terms.
+    pub fn terms(&self) -> Terms {
+        self.terms
+    }
+
+    /// Every term recomputed from the part positions alone, without any cache: the
+    /// reference the incremental totals are tested against, and the baseline the
+    /// benchmark compares with. Overlap pairs are found by a sort-and-sweep on x.
+    pub fn full_terms(&self) -> Terms {
+        let n = self.pos.len();
+        let mut t = Terms::default();
+        let mut court = Vec::with_capacity(n);
+        let mut grown = Vec::with_capacity(n);
+        for i in 0..n {
+            let q = self.quarter[i].index();
+            court.push(self.court_off[i][q].translate(self.pos[i]));
+            grown.push(self.grown_off[i][q].translate(self.pos[i]));
+        }
+        // Wirelength from scratch: pin positions, then each net's box.
+        let nn = self.net_weight.len();
+        let mut boxes = vec![
+            (
+                f64::INFINITY,
+                f64::NEG_INFINITY,
+                f64::INFINITY,
+                f64::NEG_INFINITY
+            );
+            nn
+        ];
+        for i in 0..n {
+            let q = self.quarter[i].index();
+            for p in self.pins_of(i) {
+                let o = self.pin_off[p][q];
+                let (x, y) = (self.pos[i].x + o.x, self.pos[i].y + o.y);
+                let b = &mut boxes[self.pin_net[p] as usize];
+                b.0 = b.0.min(x);
+                b.1 = b.1.max(x);
+                b.2 = b.2.min(y);
+                b.3 = b.3.max(y);
+            }
+        }
+        for (k, b) in boxes.iter().enumerate() {
+            if b.0.is_finite() {
+                t.wirelength += self.net_weight[k] * ((b.1 - b.0) + (b.3 - b.2));
+            }
+        }
+        // Overlap by sweep.
+        let mut order: Vec<usize> = (0..n).collect();
+        order.sort_by(|&a, &b| grown[a].min.x.total_cmp(&grown[b].min.x));
+        for (k, &a) in order.iter().enumerate() {
+            for &b in &order[k + 1..] {
+                if grown[b].min.x >= grown[a].max.x {
+                    break;
+                }
+                if self.mask[a] & self.mask[b] != 0 {
+                    t.overlap += grown[a].overlap_area(&grown[b]);
+                }
+            }
+        }
+        for i in 0..n {
+            t.outside += self.outside_of(&court[i]);
+            t.keepout += self.keepout_of(&court[i], self.mask[i]);
+        }
+        t
+    }
+
+    /// The terms after a move, by full recomputation (the move is not kept). This is the
+    /// slow way the incremental [`Self::evaluate`] is measured against.
+    pub fn full_terms_with(&mut self, moves: &[PartMove]) -> Terms {
+        let saved: Vec<(u32, Point, Quarter)> = moves
+            .iter()
+            .map(|m| {
+                (
+                    m.part,
+                    self.pos[m.part as usize],
+                    self.quarter[m.part as usize],
+                )
+            })
+            .collect();
+        for m in moves {
+            self.pos[m.part as usize] = m.at;
+            self.quarter[m.part as usize] = m.quarter;
+        }
+        let t = self.full_terms();
+        for (p, at, q) in saved.into_iter().rev() {
+            self.pos[p as usize] = at;
+            self.quarter[p as usize] = q;
+        }
+        t
+    }
+
+    /// Resets the running totals to a full recomputation (drops accumulated rounding).
+    pub fn resync(&mut self) {
+        self.terms = self.full_terms();
+    }
+
+    /// Raw HPWL of every net in mm (net weights ignored).
+    pub fn wirelength_mm(&self) -> f64 {
+        self.net_len.iter().sum()
+    }
+
+    pub fn part_count(&self) -> usize {
+        self.pos.len()
+    }
+
+    pub fn position(&self, part: u32) -> Point {
+        self.pos[part as usize]
+    }
+
+    pub fn quarter(&self, part: u32) -> Quarter {
+        self.quarter[part as usize]
+    }
+
+    pub fn positions(&self) -> &[Point] {
+        &self.pos
+    }
+
+    pub fn quarters(&self) -> &[Quarter] {
+        &self.quarter
+    }
+
+    pub fn is_locked(&self, part: u32) -> bool {
+        self.locked[part as usize]
+    }
+
+    /// Locks or unlocks a part (the GUI's lock command).
+    pub fn set_locked(&mut self, part: u32, locked: bool) {
+        self.locked[part as usize] = locked;
+    }
+
+    pub fn is_rotatable(&self, part: u32) -> bool {
+        self.rotatable[part as usize]
+    }
+
+    pub fn grid(&self) -> f64 {
+        self.grid
+    }
+
+    pub fn outline_bounds(&self) -> Rect {
+        self.outline_bounds
+    }
+
+    /// Board rectangle of a part's courtyard (not grown).
+    pub fn courtyard(&self, part: u32) -> Rect {
+        self.court[part as usize]
+    }
+
+    /// Board rectangle of a part's courtyard grown by half the clearance.
+    pub fn grown_courtyard(&self, part: u32) -> Rect {
+        self.grown[part as usize]
+    }
+
+    /// Courtyard of a part if it stood at `at` turned by `q`.
+    pub fn courtyard_at(&self, part: u32, at: Point, q: Quarter) -> Rect {
+        self.court_off[part as usize][q.index()].translate(at)
+    }
+
+    /// The first unlocked-or-locked part other than `not` whose courtyard contains `p`.
+    pub fn part_at(&self, p: Point, not: u32) -> Option<u32> {
+        let probe = Rect { min: p, max: p };
+        let mut found = None;
+        self.hash.for_each_near(&probe, |id| {
+            if found.is_none() && id != not && self.court[id as usize].contains(p) {
+                found = Some(id);
+            }
+        });
+        found
+    }
+
+    /// Overlap, outside and keep-out areas of one part (for conflict reports).
+    pub fn part_violations(&mut self, part: u32) -> (f64, f64, f64) {
+        let i = part as usize;
+        let g = self.grown[i];
+        let c = self.court[i];
+        let ov = self.overlap_near(&g, self.mask[i], &[part]);
+        (ov, self.outside_of(&c), self.keepout_of(&c, self.mask[i]))
+    }
+
+    /// Parts whose grown courtyards overlap part `part`'s by more than `eps` mm^2.
+    pub fn overlapping(&self, part: u32, eps: f64) -> Vec<u32> {
+        let i = part as usize;
+        let g = self.grown[i];
+        let mut out = Vec::new();
+        self.hash.for_each_near(&g, |id| {
+            let j = id as usize;
+            if j != i
+                && self.mask[i] & self.mask[j] != 0
+                && self.grown[j].overlap_area(&g) > eps
+                && !out.contains(&id)
+            {
+                out.push(id);
+            }
+        });
+        out.sort_unstable();
+        out
+    }
+
+    /// Names of the part keep-outs a part's courtyard intrudes on by more than `eps` mm^2.
+    pub fn keepouts_hit(&self, part: u32, eps: f64) -> Vec<String> {
+        let i = part as usize;
+        let c = self.court[i];
+        self.keepouts
+            .iter()
+            .enumerate()
+            .filter(|(_, k)| k.mask & self.mask[i] != 0 && k.shape.overlap_with_rect(&c) > eps)
+            .map(|(k, ko)| {
+                if ko.name.is_empty() {
+                    format!("keep-out #{}", k + 1)
+                } else {
+                    ko.name.clone()
+                }
+            })
+            .collect()
+    }
+
+    /// Outside area of a part's courtyard.
+    pub fn outside_area(&self, part: u32) -> f64 {
+        self.outside_of(&self.court[part as usize])
+    }
+}

@@ -1,0 +1,138 @@
+//! Placement by simulated annealing.
+//!
+//! - [`layout`]: the problem: part positions and the incremental energy;
+//! - [`schedule`]: cooling schedules;
+//! - [`anneal`]: moves, Metropolis acceptance and the stage loop;
+//! - [`legal`]: snapping and the final repair, with a report of what remains;
+//! - [`generate`]: synthetic boards (the known-optimal grid, random benchmark boards);
+//! - [`mst`]: minimum spanning trees of pins (unrouted connections, wiring estimates).
+//!
+//! **Invariant:** nothing here does I/O or spawns threads; the same design, options and
+//! seed give the same result bit for bit.
+
+pub mod anneal;
+pub mod generate;
+mod hash;
+pub mod layout;
+pub mod legal;
+pub mod mst;
+pub mod rng;
+pub mod schedule;
+
+use std::time::Instant;
+
+use serde::{Deserialize, Serialize};
+
+pub use anneal::{AnnealOptions, Annealer, PlaceError, StageReport};
+pub use layout::{Layout, PartMove, Terms, Weights};
+pub use legal::{Conflict, ConflictKind};
+pub use schedule::Schedule;
+
+use crate::model::board::{Board, PlacementRecord};
+use crate::model::{Design, Point};
+
+/// The outcome of a placement run, as `lehr place --json` prints it.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct PlaceReport {
+    /// Final energy with the run's weights.
+    pub energy: f64,
+    /// Raw half-perimeter wirelength over all nets, mm.
+    pub wirelength_mm: f64,
+    pub overlap_mm2: f64,
+    pub outside_mm2: f64,
+    pub keepout_mm2: f64,
+    pub legal: bool,
+    pub conflicts: Vec<Conflict>,
+    pub moves: u64,
+    pub accepted: u64,
+    pub stages: u32,
+    pub start_temperature: f64,
+    pub seconds: f64,
+    pub moves_per_second: f64,
+    pub seed: u64,
+    pub schedule: String,
+}
+
+/// A placed board and how it went.
+#[derive(Clone, Debug)]
+pub struct Placed {
+    pub board: Board,
+    pub report: PlaceReport,
+    pub history: Vec<StageReport>,
+}
+
+/// Writes the annealer's positions into a copy of the design's board.
+pub fn board_with_positions(design: &Design, layout: &Layout) -> Board {
+    let mut board = design.board.clone();
+    for (i, part) in board.parts.iter_mut().enumerate() {
+        let p = layout.position(i as u32);
+        // Print-friendly: drop the last-bit noise of grid multiples (k * 0.1 and so on).
+        part.at = Some(Point::new(tidy(p.x), tidy(p.y)));
+        part.rotation = layout.quarter(i as u32).degrees();
+    }
+    board
+}
+
+fn tidy(v: f64) -> f64 {
+    let r = (v * 1e6).round() / 1e6;
+    if r == 0.0 { 0.0 } else { r }
+}
+
+/// Places every unlocked part: anneal until frozen or out of budget, then the legal
+/// finish. `observe` sees each stage and may stop the run by returning false.
+pub fn place(
+    design: &Design,
+    opts: &AnnealOptions,
+    observe: impl FnMut(&StageReport) -> bool,
+) -> Result<Placed, PlaceError> {
+    let start = Instant::now();
+    let mut an = Annealer::new(design, opts.clone())?;
+    an.run(observe);
+    finish(design, an, start)
+}
+
+/// The legal finish and the report, for a run driven step by step.
+pub fn finish(design: &Design, mut an: Annealer, start: Instant) -> Result<Placed, PlaceError> {
+    let refs: Vec<String> = design
+        .board
+        .parts
+        .iter()
+        .map(|p| p.reference.clone())
+        .collect();
+    let conflicts = legal::legalize(&mut an, &refs);
+    let layout = an.layout();
+    let terms = layout.terms();
+    let seconds = start.elapsed().as_secs_f64();
+    let energy = terms.energy(an.weights());
+    let mut board = board_with_positions(design, layout);
+    let report = PlaceReport {
+        energy,
+        wirelength_mm: layout.wirelength_mm(),
+        overlap_mm2: terms.overlap,
+        outside_mm2: terms.outside,
+        keepout_mm2: terms.keepout,
+        legal: conflicts.is_empty(),
+        conflicts,
+        moves: an.moves(),
+        accepted: an.accepted(),
+        stages: an.history().len() as u32,
+        start_temperature: an.start_temperature(),
+        seconds,
+        moves_per_second: an.moves() as f64 / seconds.max(1e-9),
+        seed: an.options().seed,
+        schedule: an.options().schedule.name().to_string(),
+    };
+    board.placement = Some(PlacementRecord {
+        seed: report.seed,
+        schedule: report.schedule.clone(),
+        moves: report.moves,
+        energy: report.energy,
+        wirelength_mm: report.wirelength_mm,
+        legal: report.legal,
+    });
+    Ok(Placed {
+        board,
+        report,
+        history: an.history().to_vec(),
+    })
+}
