@@ -26,9 +26,9 @@ pub enum FootprintSpec {
     Sod123,
     /// SOT-23 with 3, 5 or 6 pins.
     Sot23(u32),
-    /// SOIC-n, narrow body 3.9 mm, pitch 1.27 mm (JEDEC MS-012); n even, 8 to 16.
+    /// SOIC-n, narrow body 3.9 mm, pitch 1.27 mm (JEDEC MS-012); n is 8, 14 or 16.
     Soic(u32),
-    /// TSSOP-n, body 4.4 mm, pitch 0.65 mm (JEDEC MO-153); n even.
+    /// TSSOP-n, body 4.4 mm, pitch 0.65 mm (JEDEC MO-153); n is 8, 14, 16, 20, 24 or 28.
     Tssop(u32),
     /// QFN with `pins` on four sides (pins divisible by 4), square `body` side and `pitch`
     /// in mm; `thermal` is the side of the exposed pad (numbered pins + 1), if any.
@@ -39,16 +39,18 @@ pub enum FootprintSpec {
         #[serde(default)]
         thermal: Option<f64>,
     },
-    /// QFP with `pins` on four sides, square `body` side and `pitch` in mm.
+    /// QFP with `pins` on four sides (pins divisible by 4), square `body` side and `pitch`
+    /// in mm; the lead tips stand 1 mm outside the body.
     Qfp { pins: u32, body: f64, pitch: f64 },
     /// Dual in-line through-hole package, pitch 2.54 mm, rows 7.62 mm apart
-    /// (15.24 mm when `wide`); n even.
+    /// (15.24 mm when `wide`); n even, 4 to 64.
     Dip {
         pins: u32,
         #[serde(default)]
         wide: bool,
     },
-    /// Pin header on a 2.54 mm grid, `rows` x `cols`; pins numbered along each row.
+    /// Pin header on a 2.54 mm grid, `rows` x `cols`; pins numbered along each row, rows
+    /// from the top. Two-row numbering (odd pins one side, even the other) is `cols: 2`.
     Header { rows: u32, cols: u32 },
     /// Screw terminal block with `ways` positions at 5.08 mm pitch.
     TerminalBlock(u32),
@@ -65,7 +67,8 @@ pub enum FootprintSpec {
         diameter: f64,
     },
     /// Mounting hole of `drill` diameter; `pad` gives a plated ring of that diameter
-    /// (one pad "1"), otherwise the hole is unplated and has no pins.
+    /// (one pad "1"), otherwise the hole is unplated and has no pins (its one pad has an
+    /// empty number, which no net can name).
     MountingHole {
         drill: f64,
         #[serde(default)]
@@ -117,7 +120,8 @@ pub enum PadKind {
 /// A pad of an expanded footprint.
 #[derive(Clone, Debug, PartialEq)]
 pub struct Pad {
-    /// Pin number as nets name it (`U1.3` names pad "3" of U1).
+    /// Pin number as nets name it (`U1.3` names pad "3" of U1); empty for a hole that is
+    /// not a pin, such as an unplated mounting hole.
     pub number: String,
     /// Centre relative to the footprint origin.
     pub at: Point,
@@ -151,8 +155,12 @@ pub struct Footprint {
 }
 
 impl Footprint {
-    /// Index of the pad with this number.
+    /// Index of the pad with this number. Pads with an empty number (unplated holes) are
+    /// not pins and are never found.
     pub fn pad_index(&self, number: &str) -> Option<usize> {
+        if number.is_empty() {
+            return None;
+        }
         self.pads.iter().position(|p| p.number == number)
     }
 
@@ -182,6 +190,10 @@ pub enum FootprintError {
     },
     #[error("custom footprint: {0}")]
     BadCustom(String),
+    /// The parameters are each sane but do not go together, e.g. a pitch too coarse for
+    /// the body or a thermal pad that would touch the pins.
+    #[error("{package}: {why}")]
+    BadFit { package: String, why: String },
 }
 
 impl FootprintSpec {
