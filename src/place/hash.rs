@@ -10,6 +10,15 @@
 
 use crate::model::Rect;
 
+/// One part's entry in a bin: the rectangle is stored inline so a query reads the bins
+/// sequentially instead of chasing each id into the part tables.
+#[derive(Clone, Copy, Debug)]
+pub(crate) struct Entry {
+    pub id: u32,
+    pub mask: u8,
+    pub rect: Rect,
+}
+
 #[derive(Clone, Debug)]
 pub(crate) struct SpatialHash {
     x0: f64,
@@ -17,7 +26,7 @@ pub(crate) struct SpatialHash {
     inv_bin: f64,
     nx: usize,
     ny: usize,
-    bins: Vec<Vec<u32>>,
+    bins: Vec<Vec<Entry>>,
 }
 
 impl SpatialHash {
@@ -44,14 +53,10 @@ impl SpatialHash {
 
     #[inline]
     fn cell(&self, v: f64, origin: f64, n: usize) -> usize {
-        let c = ((v - origin) * self.inv_bin).floor();
-        if c <= 0.0 {
-            0
-        } else if c >= (n - 1) as f64 {
-            n - 1
-        } else {
-            c as usize
-        }
+        // Truncation toward zero differs from floor only on (-1, 0), which clamps to 0
+        // either way; `as` saturates on huge or NaN values.
+        let c = ((v - origin) * self.inv_bin) as i64;
+        c.clamp(0, n as i64 - 1) as usize
     }
 
     /// Inclusive bin ranges a rectangle covers.
@@ -65,11 +70,12 @@ impl SpatialHash {
         )
     }
 
-    pub fn insert(&mut self, id: u32, r: &Rect) {
+    pub fn insert(&mut self, id: u32, mask: u8, r: &Rect) {
         let (x0, x1, y0, y1) = self.span(r);
+        let e = Entry { id, mask, rect: *r };
         for y in y0..=y1 {
             for x in x0..=x1 {
-                self.bins[y * self.nx + x].push(id);
+                self.bins[y * self.nx + x].push(e);
             }
         }
     }
@@ -79,36 +85,88 @@ impl SpatialHash {
         for y in y0..=y1 {
             for x in x0..=x1 {
                 let bin = &mut self.bins[y * self.nx + x];
-                if let Some(k) = bin.iter().position(|&p| p == id) {
+                if let Some(k) = bin.iter().position(|e| e.id == id) {
                     bin.swap_remove(k);
                 }
             }
         }
     }
 
-    /// Moves a part from one rectangle to another, touching only bins that change.
-    pub fn relocate(&mut self, id: u32, old: &Rect, new: &Rect) {
+    /// Moves a part from one rectangle to another.
+    pub fn relocate(&mut self, id: u32, mask: u8, old: &Rect, new: &Rect) {
         let a = self.span(old);
-        let b = self.span(new);
-        if a == b {
+        if a == self.span(new) {
+            // Same bins: update the stored rectangle in place.
+            for y in a.2..=a.3 {
+                for x in a.0..=a.1 {
+                    let bin = &mut self.bins[y * self.nx + x];
+                    if let Some(e) = bin.iter_mut().find(|e| e.id == id) {
+                        e.rect = *new;
+                    }
+                }
+            }
             return;
         }
         self.remove(id, old);
-        self.insert(id, new);
+        self.insert(id, mask, new);
     }
 
-    /// Calls `f` with every part id listed in the bins `r` covers (an id may repeat when a
-    /// part spans several of those bins; callers de-duplicate).
+    /// Sum of the overlap areas of `r` with every stored rectangle whose mask shares a bit
+    /// with `mask`, skipping the ids in `exclude`. Each pair is counted once, in the bin
+    /// holding the lower-left corner of the intersection (both rectangles cover that
+    /// bin), so no de-duplication table is needed.
     #[inline]
-    pub fn for_each_near(&self, r: &Rect, mut f: impl FnMut(u32)) {
+    pub fn overlap_sum(&self, r: &Rect, mask: u8, exclude: [u32; 2]) -> f64 {
+        let (x0, x1, y0, y1) = self.span(r);
+        let single = x0 == x1 && y0 == y1;
+        let mut sum = 0.0;
+        for y in y0..=y1 {
+            let row = y * self.nx;
+            for x in x0..=x1 {
+                for e in &self.bins[row + x] {
+                    if e.mask & mask == 0 || e.id == exclude[0] || e.id == exclude[1] {
+                        continue;
+                    }
+                    let lx = if e.rect.min.x > r.min.x { e.rect.min.x } else { r.min.x };
+                    let ly = if e.rect.min.y > r.min.y { e.rect.min.y } else { r.min.y };
+                    let w = (if e.rect.max.x < r.max.x { e.rect.max.x } else { r.max.x }) - lx;
+                    let h = (if e.rect.max.y < r.max.y { e.rect.max.y } else { r.max.y }) - ly;
+                    if w > 0.0
+                        && h > 0.0
+                        && (single
+                            || (self.cell(lx, self.x0, self.nx) == x
+                                && self.cell(ly, self.y0, self.ny) == y))
+                    {
+                        sum += w * h;
+                    }
+                }
+            }
+        }
+        sum
+    }
+
+    /// Calls `f` with every entry in the bins `r` covers (an entry may repeat when its
+    /// part spans several of those bins; callers de-duplicate).
+    pub fn for_each_near(&self, r: &Rect, mut f: impl FnMut(&Entry)) {
         let (x0, x1, y0, y1) = self.span(r);
         for y in y0..=y1 {
             let row = y * self.nx;
             for bin in &self.bins[row + x0..=row + x1] {
-                for &id in bin {
-                    f(id);
+                for e in bin {
+                    f(e);
                 }
             }
         }
+    }
+
+    /// The first entry other than `not` whose rectangle contains `p`.
+    #[inline]
+    pub fn at_point(&self, p: crate::model::Point, not: u32) -> Option<u32> {
+        let x = self.cell(p.x, self.x0, self.nx);
+        let y = self.cell(p.y, self.y0, self.ny);
+        self.bins[y * self.nx + x]
+            .iter()
+            .find(|e| e.id != not && e.rect.contains(p))
+            .map(|e| e.id)
     }
 }

@@ -233,8 +233,6 @@ pub struct Layout {
     hash: SpatialHash,
 
     // Scratch, reused across moves so a move allocates nothing.
-    stamp: Vec<u32>,
-    stamp_gen: u32,
     net_stamp: Vec<u32>,
     net_gen: u32,
     net_dirty: Vec<bool>,
@@ -295,8 +293,6 @@ impl Layout {
             net_len: Vec::new(),
             terms: Terms::default(),
             hash: SpatialHash::new(Rect::default(), 1.0, 1),
-            stamp: vec![0; n],
-            stamp_gen: 0,
             net_stamp: vec![0; board.nets.len()],
             net_gen: 0,
             net_dirty: vec![false; board.nets.len()],
@@ -412,7 +408,7 @@ impl Layout {
         let area = self.hash_area();
         self.hash = SpatialHash::new(area.0, area.1, (4 * n).max(64));
         for i in 0..n {
-            self.hash.insert(i as u32, &self.grown[i]);
+            self.hash.insert(i as u32, self.mask[i], &self.grown[i]);
         }
         self.terms = self.full_terms();
     }
@@ -437,8 +433,39 @@ impl Layout {
     }
 
     #[inline]
+    fn net_start_len(&self, net: usize) -> usize {
+        (self.net_pin_start[net + 1] - self.net_pin_start[net]) as usize
+    }
+
+    #[inline]
     fn net_pins(&self, net: usize) -> &[u32] {
         &self.net_pin_list[self.net_pin_start[net] as usize..self.net_pin_start[net + 1] as usize]
+    }
+
+    /// The box of a small net from its pins' current positions (no edge counts: small
+    /// nets are always rescanned, so the counts would never be read).
+    #[inline]
+    fn scan_small(&self, net: usize) -> NetBox {
+        let pins = self.net_pins(net);
+        let Some(&first) = pins.first() else {
+            return NetBox::default();
+        };
+        let (x, y) = (self.pin_x[first as usize], self.pin_y[first as usize]);
+        let mut b = NetBox {
+            xmin: x,
+            xmax: x,
+            ymin: y,
+            ymax: y,
+            ..NetBox::default()
+        };
+        for &p in &pins[1..] {
+            let (x, y) = (self.pin_x[p as usize], self.pin_y[p as usize]);
+            b.xmin = b.xmin.min(x);
+            b.xmax = b.xmax.max(x);
+            b.ymin = b.ymin.min(y);
+            b.ymax = b.ymax.max(y);
+        }
+        b
     }
 
     /// The box of a net from its pins' current positions, with edge counts.
@@ -511,33 +538,8 @@ impl Layout {
 
     /// Overlap of rectangle `r` (of a part with `mask`) with every part not in `exclude`.
     #[inline]
-    fn overlap_near(&mut self, r: &Rect, mask: u8, exclude: &[u32]) -> f64 {
-        self.stamp_gen = self.stamp_gen.wrapping_add(1);
-        if self.stamp_gen == 0 {
-            self.stamp.fill(0);
-            self.stamp_gen = 1;
-        }
-        let Layout {
-            hash,
-            stamp,
-            stamp_gen,
-            grown,
-            mask: masks,
-            ..
-        } = self;
-        let mut sum = 0.0;
-        hash.for_each_near(r, |id| {
-            let i = id as usize;
-            if stamp[i] == *stamp_gen {
-                return;
-            }
-            stamp[i] = *stamp_gen;
-            if masks[i] & mask == 0 || exclude.contains(&id) {
-                return;
-            }
-            sum += grown[i].overlap_area(r);
-        });
-        sum
+    fn overlap_near(&self, r: &Rect, mask: u8, exclude: [u32; 2]) -> f64 {
+        self.hash.overlap_sum(r, mask, exclude)
     }
 
     /// Evaluates moving one or two parts, applying the change to pins and net boxes
@@ -552,7 +554,6 @@ impl Layout {
             self.pending[k] = *m;
         }
         self.pending_n = moves.len();
-        let ids = &ids[..moves.len()];
         let mut d = Terms::default();
 
         // Area terms: each moved part against the parts that stay, then the moved pair.
@@ -605,7 +606,7 @@ impl Layout {
                     self.net_stamp[net] = self.net_gen;
                     self.undo_nets
                         .push((net as u32, self.bbox[net], self.net_len[net]));
-                    self.net_dirty[net] = self.net_pins(net).len() <= LARGE_NET;
+                    self.net_dirty[net] = self.net_start_len(net) <= LARGE_NET;
                 }
                 if !self.net_dirty[net] {
                     let b = &mut self.bbox[net];
@@ -623,7 +624,12 @@ impl Layout {
             let (net, _, old_len) = self.undo_nets[k];
             let net = net as usize;
             if self.net_dirty[net] {
-                self.bbox[net] = self.scan_box(net);
+                let pins = self.net_start_len(net);
+                self.bbox[net] = if pins <= LARGE_NET {
+                    self.scan_small(net)
+                } else {
+                    self.scan_box(net)
+                };
                 self.net_dirty[net] = false;
             }
             let len = self.bbox[net].hpwl();
@@ -641,7 +647,7 @@ impl Layout {
             let i = m.part as usize;
             let q = m.quarter.index();
             let new_g = self.grown_off[i][q].translate(m.at);
-            self.hash.relocate(m.part, &self.grown[i], &new_g);
+            self.hash.relocate(m.part, self.mask[i], &self.grown[i], &new_g);
             self.grown[i] = new_g;
             self.court[i] = self.court_off[i][q].translate(m.at);
             self.pos[i] = m.at;
@@ -833,24 +839,19 @@ impl Layout {
         self.court_off[part as usize][q.index()].translate(at)
     }
 
-    /// The first unlocked-or-locked part other than `not` whose courtyard contains `p`.
+    /// A part other than `not` whose grown courtyard contains `p` (the swap partner of a
+    /// move aimed at `p`).
+    #[inline]
     pub fn part_at(&self, p: Point, not: u32) -> Option<u32> {
-        let probe = Rect { min: p, max: p };
-        let mut found = None;
-        self.hash.for_each_near(&probe, |id| {
-            if found.is_none() && id != not && self.court[id as usize].contains(p) {
-                found = Some(id);
-            }
-        });
-        found
+        self.hash.at_point(p, not)
     }
 
     /// Overlap, outside and keep-out areas of one part (for conflict reports).
-    pub fn part_violations(&mut self, part: u32) -> (f64, f64, f64) {
+    pub fn part_violations(&self, part: u32) -> (f64, f64, f64) {
         let i = part as usize;
         let g = self.grown[i];
         let c = self.court[i];
-        let ov = self.overlap_near(&g, self.mask[i], &[part]);
+        let ov = self.overlap_near(&g, self.mask[i], [part, u32::MAX]);
         (ov, self.outside_of(&c), self.keepout_of(&c, self.mask[i]))
     }
 
@@ -859,14 +860,14 @@ impl Layout {
         let i = part as usize;
         let g = self.grown[i];
         let mut out = Vec::new();
-        self.hash.for_each_near(&g, |id| {
-            let j = id as usize;
+        self.hash.for_each_near(&g, |e| {
+            let j = e.id as usize;
             if j != i
                 && self.mask[i] & self.mask[j] != 0
                 && self.grown[j].overlap_area(&g) > eps
-                && !out.contains(&id)
+                && !out.contains(&e.id)
             {
-                out.push(id);
+                out.push(e.id);
             }
         });
         out.sort_unstable();
