@@ -9,4 +9,5 @@
 //!
 //! See docs/ARCHITECTURE.md for the map of modules and the invariants.
 
+pub mod io;
 pub mod model;
