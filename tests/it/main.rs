@@ -1,2 +1,3 @@
 //! Integration tests, one binary (faster to build than one per file). Each module checks
 //! the engine against a source outside the project, named beside each check.
+mod io;
