@@ -19,12 +19,9 @@ pub struct Location {
 }
 
 impl Location {
-    /// The first character of a text.
-    pub const START: Location = Location { line: 1, column: 1 };
-
     /// The location of the character starting at byte `offset` of `source` (clamped to the
     /// end of the text and to a character boundary).
-    pub fn of_offset(source: &str, offset: usize) -> Location {
+    pub(crate) fn of_offset(source: &str, offset: usize) -> Location {
         let mut end = offset.min(source.len());
         while !source.is_char_boundary(end) {
             end -= 1;
@@ -36,12 +33,10 @@ impl Location {
             column: 1 + before[line_start..].chars().count(),
         }
     }
-}
 
-impl Location {
     /// The byte offset of this location in `source`, clamped to the end of its line and
     /// of the text.
-    pub fn offset_in(self, source: &str) -> usize {
+    pub(crate) fn offset_in(self, source: &str) -> usize {
         let line_start: usize = source
             .split_inclusive('\n')
             .take(self.line.saturating_sub(1))
@@ -64,19 +59,17 @@ impl fmt::Display for Location {
 
 /// Where the item named by `path` starts in the RON `source`: a field's name, a list
 /// element's first character. Falls back to the nearest enclosing item that could be found
-/// (the whole document at worst).
+/// (the whole document at worst). To locate many items of one text, use a [`Locator`].
 pub fn locate(source: &str, path: &ItemPath) -> Location {
-    Location::of_offset(source, locate_offset(source, path))
+    Locator::new(source).locate(path)
 }
 
-/// [`locate`] as a byte offset into `source`.
-pub fn locate_offset(source: &str, path: &ItemPath) -> usize {
-    let toks = tokenize(source);
-    let walker = Walker {
-        source,
-        toks: &toks,
-    };
-    walker.follow(path)
+/// Locates items of one RON text by their paths; the text is scanned once, up front.
+pub struct Locator<'a> {
+    source: &'a str,
+    toks: Vec<Token>,
+    /// Byte offset where each line starts.
+    line_starts: Vec<usize>,
 }
 
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -129,7 +122,16 @@ fn tokenize(src: &str) -> Vec<Token> {
     while i < b.len() {
         let c = b[i];
         let start = i;
+        let raw_end = match c {
+            b'r' => raw_string_at(b, i),
+            b'b' if b.get(i + 1) == Some(&b'r') => raw_string_at(b, i + 1),
+            _ => None,
+        };
         let kind = match c {
+            _ if raw_end.is_some() => {
+                i = raw_end.unwrap_or(b.len());
+                Kind::Literal
+            }
             b'/' if b.get(i + 1) == Some(&b'/') => {
                 i = src[i..].find('\n').map_or(b.len(), |k| i + k + 1);
                 continue;
@@ -168,14 +170,6 @@ fn tokenize(src: &str) -> Vec<Token> {
             }
             b'b' if b.get(i + 1) == Some(&b'\'') => {
                 i = skip_quoted(b, i + 2, b'\'');
-                Kind::Literal
-            }
-            b'b' if b.get(i + 1) == Some(&b'r') && raw_string_at(b, i + 1).is_some() => {
-                i = raw_string_at(b, i + 1).unwrap_or(b.len());
-                Kind::Literal
-            }
-            b'r' if raw_string_at(b, i).is_some() => {
-                i = raw_string_at(b, i).unwrap_or(b.len());
                 Kind::Literal
             }
             _ => {
@@ -272,12 +266,30 @@ impl Element<'_> {
     }
 }
 
-struct Walker<'a> {
-    source: &'a str,
-    toks: &'a [Token],
-}
+impl<'a> Locator<'a> {
+    pub fn new(source: &'a str) -> Self {
+        let line_starts = std::iter::once(0)
+            .chain(source.match_indices('\n').map(|(i, _)| i + 1))
+            .collect();
+        Locator {
+            source,
+            toks: tokenize(source),
+            line_starts,
+        }
+    }
 
-impl<'a> Walker<'a> {
+    /// See [`locate`].
+    pub fn locate(&self, path: &ItemPath) -> Location {
+        let offset = self.follow(path);
+        // `offset` is a token start, so a character boundary.
+        let line = self.line_starts.partition_point(|&s| s <= offset);
+        let start = self.line_starts[line - 1];
+        Location {
+            line,
+            column: 1 + self.source[start..offset].chars().count(),
+        }
+    }
+
     fn text(&self, t: usize) -> &'a str {
         let tok = self.toks[t];
         &self.source[tok.start..tok.end]
@@ -506,7 +518,7 @@ mod tests {
             "( /* nested /* parts: [ */ still comment */\n",
             "  name: \"tricky \\\" , parts: [\",\n",
             "  value: r#\"raw \" ], ( \"#,\n",
-            "  c: '\\'', d: ')',\n",
+            "  c: '\\'', d: ')', e: b\"x)\", f: br#\"(\"#, g: b'(',\n",
             "  parts: [ (reference: \"R1\"), (reference: \"R2\") ],\n",
             ")\n",
         );
@@ -532,7 +544,7 @@ mod tests {
             locate(src, &path("rules.clearance")),
             Location { line: 1, column: 1 }
         );
-        assert_eq!(locate("", &path("a.b")), Location::START);
+        assert_eq!(locate("", &path("a.b")), Location { line: 1, column: 1 });
     }
 
     #[test]
@@ -555,6 +567,24 @@ mod tests {
                 column: 16
             }
         );
+    }
+
+    proptest::proptest! {
+        #[test]
+        fn any_text_and_path_give_a_location_inside_the_text(
+            src in "[(){}\\[\\],:\"'#/*rb a-z0-9\n\\\\]{0,120}",
+            segs in proptest::collection::vec((proptest::bool::ANY, 0usize..4), 0..5),
+        ) {
+            let mut p = ItemPath::default();
+            for (field, i) in segs {
+                p = if field { p.field(["a", "b", "r", "parts"][i]) } else { p.index(i) };
+            }
+            let at = locate(&src, &p);
+            let lines: Vec<&str> = src.split('\n').collect();
+            proptest::prop_assert!(at.line >= 1 && at.line <= lines.len());
+            proptest::prop_assert!(at.column >= 1);
+            proptest::prop_assert!(at.column <= lines[at.line - 1].chars().count() + 1);
+        }
     }
 
     #[test]

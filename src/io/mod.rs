@@ -25,7 +25,7 @@ use thiserror::Error;
 use crate::model::check::resolve;
 use crate::model::{Board, Design, Problem};
 
-pub use locate::{Location, locate};
+pub use locate::{Location, Locator, locate};
 
 /// The recommended ending of a board file's name, as in `thermostat.board.ron`. (File
 /// dialogs that filter by the last extension only should offer `ron`.)
@@ -49,13 +49,10 @@ pub struct LocatedProblem {
 /// Why a board file could not be loaded.
 #[derive(Debug, Error)]
 pub enum LoadError {
-    /// The file could not be read at all.
-    #[error("cannot read {}: {source}", path.display())]
-    Io {
-        path: PathBuf,
-        #[source]
-        source: io::Error,
-    },
+    /// The file could not be read at all. (The cause is part of the message, so it is
+    /// not repeated as the error's source.)
+    #[error("cannot read {}: {cause}", path.display())]
+    Io { path: PathBuf, cause: io::Error },
     /// The text is not a well-formed board file (RON syntax, wrong types, unknown or
     /// missing fields, not UTF-8).
     #[error("{file}:{at}: {message}")]
@@ -95,14 +92,11 @@ fn list_problems(file: &str, problems: &[LocatedProblem]) -> String {
 /// Why a board could not be saved. The previous file, if any, is unchanged.
 #[derive(Debug, Error)]
 pub enum SaveError {
-    #[error("cannot write {}: {source}", path.display())]
-    Io {
-        path: PathBuf,
-        #[source]
-        source: io::Error,
-    },
+    /// (The cause is part of the message, so it is not repeated as the error's source.)
+    #[error("cannot write {}: {cause}", path.display())]
+    Io { path: PathBuf, cause: io::Error },
     #[error("cannot write the board as RON: {0}")]
-    Format(#[from] ron::Error),
+    Format(ron::Error),
 }
 
 /// The RON options of board files: bare optional values allowed, RON's default nesting
@@ -132,10 +126,11 @@ pub fn load_board_unchecked(path: impl AsRef<Path>) -> Result<Board, LoadError> 
 pub fn parse_board(source: &str, file_name: &str) -> Result<Design, LoadError> {
     let board = parse_board_unchecked(source, file_name)?;
     resolve(board).map_err(|problems| {
+        let locator = Locator::new(source);
         let mut located: Vec<LocatedProblem> = problems
             .into_iter()
             .map(|problem| LocatedProblem {
-                at: locate(source, &problem.path),
+                at: locator.locate(&problem.path),
                 problem,
             })
             .collect();
@@ -184,7 +179,9 @@ pub fn board_to_string(board: &Board) -> Result<String, SaveError> {
     let config = ron::ser::PrettyConfig::new()
         .indentor("    ")
         .depth_limit(2);
-    let body = ron_options().to_string_pretty(board, config)?;
+    let body = ron_options()
+        .to_string_pretty(board, config)
+        .map_err(SaveError::Format)?;
     Ok(format!("{HEADER}{body}\n"))
 }
 
@@ -193,16 +190,16 @@ pub fn board_to_string(board: &Board) -> Result<String, SaveError> {
 pub fn save_board(path: impl AsRef<Path>, board: &Board) -> Result<(), SaveError> {
     let path = path.as_ref();
     let text = board_to_string(board)?;
-    atomic::write_atomically(path, text.as_bytes()).map_err(|source| SaveError::Io {
+    atomic::write_atomically(path, text.as_bytes()).map_err(|cause| SaveError::Io {
         path: path.to_path_buf(),
-        source,
+        cause,
     })
 }
 
 fn read(path: &Path) -> Result<Vec<u8>, LoadError> {
-    std::fs::read(path).map_err(|source| LoadError::Io {
+    std::fs::read(path).map_err(|cause| LoadError::Io {
         path: path.to_path_buf(),
-        source,
+        cause,
     })
 }
 
