@@ -5,7 +5,7 @@ use std::path::{Path, PathBuf};
 use std::process::ExitCode;
 use std::time::Duration;
 
-use anyhow::{Context, Result, bail};
+use anyhow::{Result, bail};
 use clap::{Args, CommandFactory, Parser, Subcommand};
 use indicatif::{ProgressBar, ProgressStyle};
 use serde_json::json;
@@ -156,8 +156,7 @@ fn place_cmd(a: PlaceArgs) -> Result<ExitCode> {
         );
     }
     let placed = run_place(&design, &opts, !a.json)?;
-    lehr::io::save_board(&out, &placed.board)
-        .with_context(|| format!("cannot write {}", out.display()))?;
+    lehr::io::save_board(&out, &placed.board)?;
     if a.json {
         let r = &placed.report;
         let v = json!({
@@ -292,8 +291,7 @@ fn generate_cmd(g: GenerateCommand) -> Result<ExitCode> {
             (generate::random_board(parts, seed), out, json, None)
         }
     };
-    lehr::io::save_board(&out, &board)
-        .with_context(|| format!("cannot write {}", out.display()))?;
+    lehr::io::save_board(&out, &board)?;
     if json {
         let mut v = json!({
             "parts": board.parts.len(),

@@ -9,6 +9,7 @@ use super::geom::{Point, Quarter, Rect};
 
 /// A whole board file.
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
 pub struct Board {
     /// Display name (window title, reports).
     pub name: String,
@@ -36,6 +37,7 @@ pub struct Board {
 /// A region of the board: a rectangle or a simple polygon (vertices in order, not closed,
 /// no self-crossings).
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
 pub enum Shape {
     Rect { min: Point, max: Point },
     Polygon(Vec<Point>),
@@ -111,6 +113,7 @@ pub enum Layers {
 
 /// A keep-out area.
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
 pub struct Keepout {
     #[serde(default)]
     pub name: String,
@@ -131,7 +134,7 @@ fn yes() -> bool {
 
 /// Design rules, in mm.
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
-#[serde(default)]
+#[serde(default, deny_unknown_fields)]
 pub struct Rules {
     /// Minimum copper-to-copper gap between different nets.
     pub clearance: f64,
@@ -166,6 +169,7 @@ impl Default for Rules {
 
 /// A class of nets sharing width and clearance, with optional electrical ratings.
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
 pub struct NetClass {
     pub name: String,
     pub track_width: f64,
@@ -191,6 +195,7 @@ pub enum Side {
 
 /// A component on the board.
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
 pub struct Part {
     /// Reference designator, unique on the board ("R1", "U3").
     pub reference: String,
@@ -239,6 +244,7 @@ impl Part {
 
 /// A net: the pins it joins, written `REF.PIN`.
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
 pub struct Net {
     pub name: String,
     /// Name of a [`NetClass`]; `None` uses the rules' defaults.
@@ -264,6 +270,7 @@ pub enum Layer {
 
 /// Routed copper stored with the board.
 #[derive(Clone, Debug, Default, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
 pub struct Copper {
     #[serde(default)]
     pub tracks: Vec<Track>,
@@ -273,6 +280,7 @@ pub struct Copper {
 
 /// A polyline of copper on one layer.
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
 pub struct Track {
     pub net: String,
     pub layer: Layer,
@@ -282,6 +290,7 @@ pub struct Track {
 
 /// A plated hole joining the two layers.
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
 pub struct Via {
     pub net: String,
     pub at: Point,
@@ -291,6 +300,7 @@ pub struct Via {
 
 /// What produced the stored placement, so a run can be repeated.
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
 pub struct PlacementRecord {
     pub seed: u64,
     pub schedule: String,

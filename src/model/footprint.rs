@@ -18,6 +18,7 @@ pub const COURTYARD_EXCESS: f64 = 0.25;
 
 /// A footprint as written in a board file, e.g. `Soic(8)` or `Chip("0603")`.
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
 pub enum FootprintSpec {
     /// Two-terminal chip part by EIA inch size code: "0402", "0603", "0805", "1206",
     /// "1210" or "2512".
@@ -84,6 +85,7 @@ pub enum FootprintSpec {
 
 /// One pad of a [`FootprintSpec::Custom`] footprint.
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
 pub struct PadSpec {
     pub number: String,
     pub at: Point,

@@ -60,6 +60,7 @@ impl Point {
 
 /// An axis-aligned rectangle, `min` inclusive corner and `max` opposite corner.
 #[derive(Clone, Copy, Debug, Default, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
 pub struct Rect {
     pub min: Point,
     pub max: Point,

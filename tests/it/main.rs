@@ -2,3 +2,4 @@
 //! the engine against a source outside the project, named beside each check.
 
 mod footprints;
+mod io;
