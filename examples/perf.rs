@@ -4,9 +4,22 @@ fn main() {
     let n: u32 = std::env::args().nth(1).unwrap().parse().unwrap();
     let moves: u64 = std::env::args().nth(2).unwrap().parse().unwrap();
     let d = resolve(generate::random_board(n, 7)).unwrap();
-    let o = AnnealOptions { schedule: std::env::args().nth(3).map(|s| s.parse().unwrap()).unwrap_or(Schedule::LamDelosme { target: 0.44 }), max_moves: Some(moves), effort: (moves as f64 / (50.0 * (n as f64).powf(4.0/3.0))).min(10.0), ..Default::default() };
+    let o = AnnealOptions {
+        schedule: std::env::args()
+            .nth(3)
+            .map(|s| s.parse().unwrap())
+            .unwrap_or(Schedule::LamDelosme { target: 0.44 }),
+        max_moves: Some(moves),
+        effort: (moves as f64 / (50.0 * (n as f64).powf(4.0 / 3.0))).min(10.0),
+        ..Default::default()
+    };
     let mut a = Annealer::new(&d, o).unwrap();
     let t = std::time::Instant::now();
     a.run(|_| true);
-    println!("{} moves {:.0}/s acc {:.2}", a.moves(), a.moves() as f64 / t.elapsed().as_secs_f64(), a.accepted() as f64 / a.moves() as f64);
+    println!(
+        "{} moves {:.0}/s acc {:.2}",
+        a.moves(),
+        a.moves() as f64 / t.elapsed().as_secs_f64(),
+        a.accepted() as f64 / a.moves() as f64
+    );
 }

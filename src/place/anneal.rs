@@ -32,6 +32,11 @@ pub struct AnnealOptions {
     pub weights: Option<Weights>,
     /// Fraction of moves that rotate a part instead of displacing or swapping it.
     pub rotate_fraction: f64,
+    /// Fraction of moves aimed at the centroid of the part's net neighbours (a small
+    /// window around it) instead of a random spot in the window: a directed move, common
+    /// practice in annealing placers, that speeds up the ordering of large boards. Zero
+    /// keeps the proposal symmetric (needed for exact Boltzmann sampling).
+    pub directed_fraction: f64,
     /// The run is frozen when a stage accepts fewer than this fraction of moves and the
     /// best energy has not improved for `frozen_stages` stages.
     pub frozen_acceptance: f64,
@@ -52,6 +57,7 @@ impl Default for AnnealOptions {
             start_temperature: None,
             weights: None,
             rotate_fraction: 0.1,
+            directed_fraction: 0.0,
             frozen_acceptance: 0.02,
             frozen_stages: 5,
             scatter: false,
@@ -265,9 +271,17 @@ impl Annealer {
             return Some(([m, m], 1));
         }
         let g = self.layout.grid();
-        let w = ((self.window / g).round() as u32).max(1);
-        let cx = (pos.x / g).round() as i64;
-        let cy = (pos.y / g).round() as i64;
+        let mut w = ((self.window / g).round() as u32).max(1);
+        let mut centre = pos;
+        if self.opts.directed_fraction > 0.0
+            && self.rng.unit() < self.opts.directed_fraction
+            && let Some(c) = self.layout.neighbour_centroid(a)
+        {
+            centre = c;
+            w = w.min(2);
+        }
+        let cx = (centre.x / g).round() as i64;
+        let cy = (centre.y / g).round() as i64;
         let tx = (cx + self.rng.symmetric(w)).clamp(self.cells.0, self.cells.1);
         let ty = (cy + self.rng.symmetric(w)).clamp(self.cells.2, self.cells.3);
         let target = Point::new(tx as f64 * g, ty as f64 * g);
@@ -474,7 +488,8 @@ impl Annealer {
     pub fn energy(&self) -> f64 {
         self.energy
     }
-    pub fn best_energy(&self) -> f64 {
+    /// Lowest energy seen so far (after any move).
+    pub fn lowest_energy(&self) -> f64 {
         self.best_seen
     }
     pub fn moves(&self) -> u64 {
@@ -605,6 +620,9 @@ fn check_options(o: &AnnealOptions) -> Result<(), PlaceError> {
         && !(t.is_finite() && t >= 0.0)
     {
         return bad("start temperature", "a finite number >= 0", t);
+    }
+    if !(0.0..=1.0).contains(&o.directed_fraction) {
+        return bad("directed fraction", "between 0 and 1", o.directed_fraction);
     }
     if !(0.0..=1.0).contains(&o.rotate_fraction) {
         return bad("rotate fraction", "between 0 and 1", o.rotate_fraction);

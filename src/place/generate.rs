@@ -34,11 +34,18 @@ fn grid_footprint(p: f64) -> FootprintSpec {
 pub fn grid_board(n: u32, pitch: f64, seed: u64) -> Board {
     let mut rng = Rng::new(seed);
     let name = |r: u32, c: u32| format!("G{}", r * n + c + 1);
+    // A random permutation of the grid cells (Fisher-Yates): scattered, but not stacked.
+    let mut cells: Vec<u32> = (0..n * n).collect();
+    for i in (1..cells.len()).rev() {
+        let j = rng.below(i as u32 + 1) as usize;
+        cells.swap(i, j);
+    }
     let mut parts = Vec::with_capacity((n * n) as usize);
     for r in 0..n {
         for c in 0..n {
-            let x = rng.below(n) as f64 * pitch;
-            let y = rng.below(n) as f64 * pitch;
+            let cell = cells[(r * n + c) as usize];
+            let x = f64::from(cell % n) * pitch;
+            let y = f64::from(cell / n) * pitch;
             parts.push(Part {
                 reference: name(r, c),
                 footprint: grid_footprint(pitch),

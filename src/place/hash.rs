@@ -127,10 +127,26 @@ impl SpatialHash {
                     if e.mask & mask == 0 || e.id == exclude[0] || e.id == exclude[1] {
                         continue;
                     }
-                    let lx = if e.rect.min.x > r.min.x { e.rect.min.x } else { r.min.x };
-                    let ly = if e.rect.min.y > r.min.y { e.rect.min.y } else { r.min.y };
-                    let w = (if e.rect.max.x < r.max.x { e.rect.max.x } else { r.max.x }) - lx;
-                    let h = (if e.rect.max.y < r.max.y { e.rect.max.y } else { r.max.y }) - ly;
+                    let lx = if e.rect.min.x > r.min.x {
+                        e.rect.min.x
+                    } else {
+                        r.min.x
+                    };
+                    let ly = if e.rect.min.y > r.min.y {
+                        e.rect.min.y
+                    } else {
+                        r.min.y
+                    };
+                    let w = (if e.rect.max.x < r.max.x {
+                        e.rect.max.x
+                    } else {
+                        r.max.x
+                    }) - lx;
+                    let h = (if e.rect.max.y < r.max.y {
+                        e.rect.max.y
+                    } else {
+                        r.max.y
+                    }) - ly;
                     if w > 0.0
                         && h > 0.0
                         && (single

@@ -211,6 +211,7 @@ pub struct Layout {
     grown_off: Vec<[Rect; 4]>,
     part_pin_start: Vec<u32>,
     pin_net: Vec<u32>,
+    pin_part: Vec<u32>,
     pin_off: Vec<[Point; 4]>,
     net_pin_start: Vec<u32>,
     net_pin_list: Vec<u32>,
@@ -265,6 +266,7 @@ impl Layout {
             grown_off: Vec::with_capacity(n),
             part_pin_start: Vec::with_capacity(n + 1),
             pin_net: Vec::new(),
+            pin_part: Vec::new(),
             pin_off: Vec::new(),
             net_pin_start: Vec::new(),
             net_pin_list: Vec::new(),
@@ -345,6 +347,7 @@ impl Layout {
                     rotatable |= offs.iter().any(|o| *o != offs[0]);
                     part_pins_of_net[*net as usize].push(layout.pin_net.len() as u32);
                     layout.pin_net.push(*net);
+                    layout.pin_part.push(i as u32);
                     layout.pin_off.push(offs);
                 }
             }
@@ -647,7 +650,8 @@ impl Layout {
             let i = m.part as usize;
             let q = m.quarter.index();
             let new_g = self.grown_off[i][q].translate(m.at);
-            self.hash.relocate(m.part, self.mask[i], &self.grown[i], &new_g);
+            self.hash
+                .relocate(m.part, self.mask[i], &self.grown[i], &new_g);
             self.grown[i] = new_g;
             self.court[i] = self.court_off[i][q].translate(m.at);
             self.pos[i] = m.at;
@@ -741,9 +745,9 @@ impl Layout {
                 }
             }
         }
-        for i in 0..n {
-            t.outside += self.outside_of(&court[i]);
-            t.keepout += self.keepout_of(&court[i], self.mask[i]);
+        for (c, &mask) in court.iter().zip(&self.mask) {
+            t.outside += self.outside_of(c);
+            t.keepout += self.keepout_of(c, mask);
         }
         t
     }
@@ -837,6 +841,27 @@ impl Layout {
     /// Courtyard of a part if it stood at `at` turned by `q`.
     pub fn courtyard_at(&self, part: u32, at: Point, q: Quarter) -> Rect {
         self.court_off[part as usize][q.index()].translate(at)
+    }
+
+    /// Mean position of the pins that share a net with `part` (nets of more than
+    /// [`LARGE_NET`] pins left out: they pull everywhere and cost a scan). The target of
+    /// a directed move; `None` when the part has no such neighbours.
+    pub fn neighbour_centroid(&self, part: u32) -> Option<Point> {
+        let (mut sx, mut sy, mut k) = (0.0, 0.0, 0u32);
+        for p in self.pins_of(part as usize) {
+            let net = self.pin_net[p] as usize;
+            if self.net_start_len(net) > LARGE_NET {
+                continue;
+            }
+            for &q in self.net_pins(net) {
+                if self.pin_part[q as usize] != part {
+                    sx += self.pin_x[q as usize];
+                    sy += self.pin_y[q as usize];
+                    k += 1;
+                }
+            }
+        }
+        (k > 0).then(|| Point::new(sx / f64::from(k), sy / f64::from(k)))
     }
 
     /// A part other than `not` whose grown courtyard contains `p` (the swap partner of a
