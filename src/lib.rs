@@ -5,10 +5,12 @@
 //! - [`io`]: reading and atomically writing board files, with errors located by line and
 //!   column;
 //! - [`place`]: the incremental placement energy, moves, cooling schedules and the
-//!   annealer.
+//!   annealer;
+//! - [`engine`]: the worker thread a user interface drives by messages.
 //!
 //! See docs/ARCHITECTURE.md for the map of modules and the invariants.
 
+pub mod engine;
 pub mod io;
 pub mod model;
 pub mod place;

@@ -354,6 +354,11 @@ impl Annealer {
         }
     }
 
+    /// Moves left in the current stage.
+    pub fn stage_moves_left(&self) -> u64 {
+        self.moves_per_stage - self.stage_acc.moves
+    }
+
     /// Runs the rest of the current stage.
     pub fn run_stage(&mut self) {
         let room = self.moves_per_stage - self.stage_acc.moves;

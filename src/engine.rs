@@ -1,0 +1,474 @@
+//! The engine's worker thread and its messages: the only place in the library that spawns
+//! a thread.
+//!
+//! A user interface owns an [`EngineHandle`]: it sends [`Command`]s and drains [`Event`]s
+//! without ever blocking. The worker owns the placement state (an [`Annealer`]) and sends
+//! [`Snapshot`]s at a bounded rate (about 30 per second while running), so the window can
+//! draw a 1,000-part board without slowing the annealer down. Only owned, `Send` data
+//! crosses the channel. A panic while handling a command is caught, reported as
+//! [`Event::Failed`], and the worker goes back to the last board it was given.
+
+use std::panic::{AssertUnwindSafe, catch_unwind};
+use std::sync::Arc;
+use std::sync::mpsc::{self, Receiver, RecvTimeoutError, Sender, TryRecvError};
+use std::thread::JoinHandle;
+use std::time::{Duration, Instant};
+
+use crate::model::{Board, Design, Point, Quarter};
+use crate::place::{
+    self, AnnealOptions, Annealer, Conflict, PlaceReport, Schedule, StageReport, Terms, Weights,
+};
+
+/// Interval between snapshots while running.
+pub const SNAPSHOT_INTERVAL: Duration = Duration::from_millis(33);
+
+/// What the interface asks of the worker.
+#[derive(Clone, Debug)]
+pub enum Command {
+    /// Replace the board (and start over with the current options).
+    Load(Box<Design>),
+    /// Run until paused, frozen or out of budget.
+    Run,
+    Pause,
+    /// Run one temperature stage, then pause.
+    Step,
+    /// Raise the temperature to this fraction of the start temperature.
+    Reheat(f64),
+    /// Start over from the loaded board's positions with the current options.
+    Reset,
+    /// New options (schedule, seed, weights, effort, ...): applied by starting over.
+    SetOptions(AnnealOptions),
+    /// Change the schedule without starting over (the temperature carries over).
+    SetSchedule(Schedule),
+    /// Change the energy weights without starting over.
+    SetWeights(Weights),
+    /// Moves per batch: 1 for a move at a time (teaching), large for full speed.
+    SetMovesPerTick(u64),
+    /// Start over from the loaded board with zero-temperature descent.
+    DescentOnly,
+    /// Move a part by hand.
+    MovePart {
+        part: u32,
+        at: Point,
+        quarter: Quarter,
+    },
+    /// Lock or unlock a part.
+    Lock {
+        part: u32,
+        locked: bool,
+    },
+    /// Stop annealing and run the legal finish; answers with [`Event::Finished`].
+    Finish,
+    /// Ask for a snapshot now.
+    Refresh,
+    /// End the worker.
+    Shutdown,
+}
+
+/// A sample for the plots, taken after each batch of moves.
+#[derive(Clone, Copy, Debug, Default, PartialEq)]
+pub struct PlotPoint {
+    pub moves: u64,
+    pub energy: f64,
+    pub best: f64,
+    pub terms: Terms,
+    pub temperature: f64,
+    /// Acceptance ratio over the batch.
+    pub acceptance: f64,
+}
+
+/// The state of the run as the interface sees it.
+#[derive(Clone, Debug, Default)]
+pub struct Snapshot {
+    pub positions: Vec<Point>,
+    pub quarters: Vec<Quarter>,
+    pub locked: Vec<bool>,
+    pub terms: Terms,
+    pub weights: Option<Weights>,
+    pub energy: f64,
+    pub best_energy: f64,
+    pub temperature: f64,
+    pub start_temperature: f64,
+    /// Acceptance ratio of the last completed stage.
+    pub acceptance: f64,
+    /// Displacement window, mm.
+    pub window: f64,
+    pub moves: u64,
+    pub accepted: u64,
+    pub stage: u32,
+    pub running: bool,
+    /// Frozen or out of budget.
+    pub done: bool,
+    /// Measured over the last second of running.
+    pub moves_per_second: f64,
+    /// Plot samples since the previous snapshot.
+    pub samples: Vec<PlotPoint>,
+    /// Stage reports since the previous snapshot.
+    pub stages: Vec<StageReport>,
+    /// Raw HPWL, mm.
+    pub wirelength_mm: f64,
+    pub schedule: Option<Schedule>,
+    pub seed: u64,
+}
+
+/// What the worker tells the interface.
+#[derive(Debug)]
+pub enum Event {
+    Snapshot(Arc<Snapshot>),
+    /// The legal finish is done: the placed board and its report.
+    Finished(Box<Finished>),
+    /// A command could not be carried out (bad options, no board).
+    Error(String),
+    /// The worker panicked; it has gone back to the last board it was given.
+    Failed(String),
+}
+
+/// Result of [`Command::Finish`].
+#[derive(Clone, Debug)]
+pub struct Finished {
+    pub board: Board,
+    pub report: PlaceReport,
+    pub conflicts: Vec<Conflict>,
+}
+
+/// The interface's end of the channel. Dropping it shuts the worker down.
+pub struct EngineHandle {
+    tx: Sender<Command>,
+    rx: Receiver<Event>,
+    thread: Option<JoinHandle<()>>,
+}
+
+impl EngineHandle {
+    /// Starts the worker on `design` with `opts`.
+    pub fn spawn(design: Design, opts: AnnealOptions) -> EngineHandle {
+        let (tx, crx) = mpsc::channel();
+        let (etx, rx) = mpsc::channel();
+        let thread = std::thread::Builder::new()
+            .name("lehr-engine".into())
+            .spawn(move || Worker::new(design, opts, etx).run(crx))
+            .expect("the system can start a thread");
+        EngineHandle {
+            tx,
+            rx,
+            thread: Some(thread),
+        }
+    }
+
+    /// Sends a command; false if the worker has gone.
+    pub fn send(&self, c: Command) -> bool {
+        self.tx.send(c).is_ok()
+    }
+
+    /// The next event, if one is waiting (never blocks).
+    pub fn try_recv(&self) -> Option<Event> {
+        self.rx.try_recv().ok()
+    }
+
+    /// Waits up to `timeout` for the next event (tests and the command line).
+    pub fn recv_timeout(&self, timeout: Duration) -> Option<Event> {
+        self.rx.recv_timeout(timeout).ok()
+    }
+}
+
+impl Drop for EngineHandle {
+    fn drop(&mut self) {
+        let _ = self.tx.send(Command::Shutdown);
+        if let Some(t) = self.thread.take() {
+            let _ = t.join();
+        }
+    }
+}
+
+struct Worker {
+    design: Design,
+    opts: AnnealOptions,
+    an: Option<Annealer>,
+    events: Sender<Event>,
+    running: bool,
+    stop_after_stage: Option<u32>,
+    moves_per_tick: u64,
+    samples: Vec<PlotPoint>,
+    stages_sent: usize,
+    last_snapshot: Instant,
+    rate_window: (Instant, u64),
+    moves_per_second: f64,
+}
+
+impl Worker {
+    fn new(design: Design, opts: AnnealOptions, events: Sender<Event>) -> Worker {
+        let mut w = Worker {
+            design,
+            opts,
+            an: None,
+            events,
+            running: false,
+            stop_after_stage: None,
+            moves_per_tick: 20_000,
+            samples: Vec::new(),
+            stages_sent: 0,
+            last_snapshot: Instant::now(),
+            rate_window: (Instant::now(), 0),
+            moves_per_second: 0.0,
+        };
+        w.restart();
+        w
+    }
+
+    fn restart(&mut self) {
+        self.running = false;
+        self.stop_after_stage = None;
+        self.samples.clear();
+        self.stages_sent = 0;
+        self.moves_per_second = 0.0;
+        match Annealer::new(&self.design, self.opts.clone()) {
+            Ok(a) => self.an = Some(a),
+            Err(e) => {
+                self.an = None;
+                let _ = self.events.send(Event::Error(e.to_string()));
+            }
+        }
+        self.send_snapshot();
+    }
+
+    fn run(mut self, commands: Receiver<Command>) {
+        loop {
+            // Take every waiting command; block only while idle.
+            let next = if self.running {
+                match commands.try_recv() {
+                    Ok(c) => Some(c),
+                    Err(TryRecvError::Empty) => None,
+                    Err(TryRecvError::Disconnected) => return,
+                }
+            } else {
+                match commands.recv_timeout(Duration::from_millis(250)) {
+                    Ok(c) => Some(c),
+                    Err(RecvTimeoutError::Timeout) => None,
+                    Err(RecvTimeoutError::Disconnected) => return,
+                }
+            };
+            if let Some(c) = next {
+                if matches!(c, Command::Shutdown) {
+                    return;
+                }
+                self.guarded(|w| w.handle(c));
+                continue;
+            }
+            if self.running {
+                self.guarded(Worker::tick);
+            }
+        }
+    }
+
+    /// Runs `f`, turning a panic into [`Event::Failed`] and a fresh start.
+    fn guarded(&mut self, f: impl FnOnce(&mut Worker)) {
+        if let Err(p) = catch_unwind(AssertUnwindSafe(|| f(self))) {
+            let msg = p
+                .downcast_ref::<&str>()
+                .map(|s| s.to_string())
+                .or_else(|| p.downcast_ref::<String>().cloned())
+                .unwrap_or_else(|| "unknown panic".into());
+            let _ = self.events.send(Event::Failed(format!(
+                "the placement engine failed ({msg}); it went back to the last loaded board"
+            )));
+            self.restart();
+        }
+    }
+
+    fn handle(&mut self, c: Command) {
+        match c {
+            Command::Load(d) => {
+                self.design = *d;
+                self.restart();
+            }
+            Command::Run => {
+                self.stop_after_stage = None;
+                self.running = self.an.as_ref().is_some_and(|a| !a.is_done());
+                self.rate_window = (Instant::now(), self.moves());
+                self.send_snapshot();
+            }
+            Command::Pause => {
+                self.running = false;
+                self.send_snapshot();
+            }
+            Command::Step => {
+                if let Some(a) = &self.an
+                    && !a.is_done()
+                {
+                    self.stop_after_stage = Some(a.history().len() as u32 + 1);
+                    self.running = true;
+                    self.rate_window = (Instant::now(), self.moves());
+                }
+            }
+            Command::Reheat(f) => {
+                if let Some(a) = &mut self.an {
+                    a.reheat(f);
+                }
+                self.send_snapshot();
+            }
+            Command::Reset => self.restart(),
+            Command::SetOptions(o) => {
+                self.opts = o;
+                self.restart();
+            }
+            Command::SetSchedule(s) => {
+                self.opts.schedule = s;
+                if let Some(a) = &mut self.an {
+                    a.set_schedule(s);
+                }
+                self.send_snapshot();
+            }
+            Command::SetWeights(w) => {
+                self.opts.weights = Some(w);
+                if let Some(a) = &mut self.an {
+                    a.set_weights(w);
+                }
+                self.send_snapshot();
+            }
+            Command::SetMovesPerTick(n) => self.moves_per_tick = n.max(1),
+            Command::DescentOnly => {
+                self.opts.schedule = Schedule::Descent;
+                self.restart();
+                self.running = self.an.is_some();
+                self.rate_window = (Instant::now(), 0);
+            }
+            Command::MovePart { part, at, quarter } => {
+                if let Some(a) = &mut self.an
+                    && (part as usize) < a.layout().part_count()
+                    && at.is_finite()
+                {
+                    a.move_part(part, at, quarter);
+                }
+                self.send_snapshot();
+            }
+            Command::Lock { part, locked } => {
+                if let Some(p) = self.design.board.parts.get_mut(part as usize) {
+                    p.locked = locked;
+                    if let Some(a) = &mut self.an {
+                        // A part locked where it stands keeps that position on reset.
+                        if locked {
+                            p.at = Some(a.layout().position(part));
+                            p.rotation = a.layout().quarter(part).degrees();
+                        }
+                        a.set_locked(part, locked);
+                    }
+                }
+                self.send_snapshot();
+            }
+            Command::Finish => {
+                self.running = false;
+                if let Some(a) = self.an.take() {
+                    let start = Instant::now();
+                    match place::finish(&self.design, a, start) {
+                        Ok(p) => {
+                            let conflicts = p.report.conflicts.clone();
+                            // Continue from the finished positions.
+                            let mut d = self.design.clone();
+                            d.board = p.board.clone();
+                            let mut opts = self.opts.clone();
+                            opts.scatter = false;
+                            self.an = Annealer::new(&d, opts).ok();
+                            let _ = self.events.send(Event::Finished(Box::new(Finished {
+                                board: p.board,
+                                report: p.report,
+                                conflicts,
+                            })));
+                        }
+                        Err(e) => {
+                            let _ = self.events.send(Event::Error(e.to_string()));
+                        }
+                    }
+                }
+                self.send_snapshot();
+            }
+            Command::Refresh => self.send_snapshot(),
+            Command::Shutdown => {}
+        }
+    }
+
+    fn moves(&self) -> u64 {
+        self.an.as_ref().map_or(0, Annealer::moves)
+    }
+
+    /// One batch of moves, then a snapshot if one is due.
+    fn tick(&mut self) {
+        let Some(a) = &mut self.an else {
+            self.running = false;
+            return;
+        };
+        let before = (a.moves(), a.accepted());
+        let mut batch = self.moves_per_tick;
+        if self.stop_after_stage.is_some() {
+            batch = batch.min(a.stage_moves_left().max(1));
+        }
+        // Teaching speeds: a few moves per frame, paced to the snapshot rate.
+        let paced = batch < 2_000;
+        a.run_moves(batch);
+        let (m, acc) = (a.moves() - before.0, a.accepted() - before.1);
+        self.samples.push(PlotPoint {
+            moves: a.moves(),
+            energy: a.energy(),
+            best: a.lowest_energy(),
+            terms: a.layout().terms(),
+            temperature: a.temperature(),
+            acceptance: if m > 0 { acc as f64 / m as f64 } else { 0.0 },
+        });
+        if a.is_done() {
+            self.running = false;
+        }
+        if let Some(s) = self.stop_after_stage
+            && a.history().len() as u32 >= s
+        {
+            self.running = false;
+            self.stop_after_stage = None;
+        }
+        let elapsed = self.rate_window.0.elapsed();
+        if elapsed >= Duration::from_secs(1) {
+            self.moves_per_second = (a.moves() - self.rate_window.1) as f64 / elapsed.as_secs_f64();
+            self.rate_window = (Instant::now(), a.moves());
+        }
+        if !self.running || self.last_snapshot.elapsed() >= SNAPSHOT_INTERVAL {
+            self.send_snapshot();
+        } else if paced {
+            std::thread::sleep(SNAPSHOT_INTERVAL.saturating_sub(self.last_snapshot.elapsed()));
+            self.send_snapshot();
+        }
+    }
+
+    fn send_snapshot(&mut self) {
+        self.last_snapshot = Instant::now();
+        let snap = match &self.an {
+            Some(a) => {
+                let l = a.layout();
+                let hist = a.history();
+                let stages = hist[self.stages_sent.min(hist.len())..].to_vec();
+                self.stages_sent = hist.len();
+                Snapshot {
+                    positions: l.positions().to_vec(),
+                    quarters: l.quarters().to_vec(),
+                    locked: (0..l.part_count() as u32).map(|i| l.is_locked(i)).collect(),
+                    terms: l.terms(),
+                    weights: Some(*a.weights()),
+                    energy: a.energy(),
+                    best_energy: a.lowest_energy(),
+                    temperature: a.temperature(),
+                    start_temperature: a.start_temperature(),
+                    acceptance: a.acceptance(),
+                    window: a.window(),
+                    moves: a.moves(),
+                    accepted: a.accepted(),
+                    stage: hist.len() as u32,
+                    running: self.running,
+                    done: a.is_done(),
+                    moves_per_second: self.moves_per_second,
+                    samples: std::mem::take(&mut self.samples),
+                    stages,
+                    wirelength_mm: l.wirelength_mm(),
+                    schedule: Some(a.options().schedule),
+                    seed: a.options().seed,
+                }
+            }
+            None => Snapshot::default(),
+        };
+        let _ = self.events.send(Event::Snapshot(Arc::new(snap)));
+    }
+}
