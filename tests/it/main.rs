@@ -4,3 +4,4 @@
 mod engine;
 mod footprints;
 mod io;
+mod samples;
