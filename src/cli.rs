@@ -162,6 +162,7 @@ fn place_cmd(a: PlaceArgs) -> Result<ExitCode> {
         let v = json!({
             "energy": r.energy,
             "wirelength_mm": r.wirelength_mm,
+            "annealed_wirelength_mm": r.annealed_wirelength_mm,
             "overlap_mm2": r.overlap_mm2,
             "outside_mm2": r.outside_mm2,
             "keepout_mm2": r.keepout_mm2,

@@ -334,6 +334,15 @@ pub fn resolve(board: Board) -> Result<Design, Vec<Problem>> {
                 ),
             );
         }
+        if part.locked && part.at.is_none() {
+            c.report(
+                p.clone().field("locked"),
+                format!(
+                    "{} is locked but has no position (give it `at` or unlock it)",
+                    part.reference
+                ),
+            );
+        }
     }
 
     let mut net_names = HashSet::new();

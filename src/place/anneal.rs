@@ -101,6 +101,9 @@ pub struct StageReport {
 struct StageAccum {
     moves: u64,
     accepted: u64,
+    /// Accepted moves that changed the energy (moves of a part inside a big net's box
+    /// can cost exactly nothing; they say nothing about being frozen).
+    changed: u64,
     // Welford's running mean and sum of squares of the energy.
     mean: f64,
     m2: f64,
@@ -108,9 +111,10 @@ struct StageAccum {
 
 impl StageAccum {
     #[inline]
-    fn push(&mut self, e: f64, accepted: bool) {
+    fn push(&mut self, e: f64, accepted: bool, changed: bool) {
         self.moves += 1;
         self.accepted += u64::from(accepted);
+        self.changed += u64::from(accepted && changed);
         let d = e - self.mean;
         self.mean += d / self.moves as f64;
         self.m2 += d * (e - self.mean);
@@ -148,6 +152,8 @@ pub struct Annealer {
     best_pos: Vec<Point>,
     best_quarter: Vec<Quarter>,
     stale_stages: u32,
+    /// Energy changes smaller than this are rounding (moves that change nothing).
+    change_eps: f64,
     last_acceptance: f64,
     done: bool,
     history: Vec<StageReport>,
@@ -212,6 +218,7 @@ impl Annealer {
             best_seen: energy,
             best_energy: energy,
             stale_stages: 0,
+            change_eps: 1e-9 * energy.abs().max(1e-6),
             last_acceptance: 1.0,
             done: false,
             history: Vec::new(),
@@ -313,7 +320,7 @@ impl Annealer {
     #[inline]
     fn step(&mut self) -> bool {
         let Some((mv, n)) = self.propose() else {
-            self.stage_acc.push(self.energy, false);
+            self.stage_acc.push(self.energy, false, false);
             self.moves += 1;
             return false;
         };
@@ -330,7 +337,8 @@ impl Annealer {
             self.layout.revert();
         }
         self.moves += 1;
-        self.stage_acc.push(self.energy, accept);
+        self.stage_acc
+            .push(self.energy, accept, de.abs() > self.change_eps);
         accept
     }
 
@@ -426,8 +434,9 @@ impl Annealer {
             energy_sigma: self.stage_acc.sigma(),
             progress: self.moves as f64 / budget as f64,
         };
+        let changed = self.stage_acc.changed as f64 / self.stage_acc.moves.max(1) as f64;
         self.stage_acc = StageAccum::default();
-        let cold = self.t == 0.0 || acc < self.opts.frozen_acceptance;
+        let cold = self.t == 0.0 || changed < self.opts.frozen_acceptance;
         if (cold && self.stale_stages >= self.opts.frozen_stages)
             || self.opts.max_moves.is_some_and(|m| self.moves >= m)
             || self.moves >= budget && self.opts.schedule.needs_budget()

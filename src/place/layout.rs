@@ -72,11 +72,12 @@ pub struct Weights {
 }
 
 impl Weights {
-    /// Defaults scaled to the board: an area penalty per mm^2 of `2 k / s`, where `s` is the
-    /// mean courtyard side and `k` the mean net-weighted pin count per part. Sliding one
-    /// part a distance d into another then costs about `2 k d`, twice the most wirelength
-    /// the move could save, so overlap never pays in the final state while small
-    /// intrusions stay cheap enough for the hot phase to pass parts through each other.
+    /// Defaults scaled to the board: an area penalty per mm^2 of `2 k / s`, where `s` is
+    /// the mean courtyard side and `k` the 90th percentile of the net-weighted pin count
+    /// per part. Sliding a part a distance d into another then costs about `2 k d`, twice
+    /// the most wirelength the move could save, so overlap does not pay in the final
+    /// state, while small intrusions stay cheap enough for the hot phase to pass parts
+    /// through each other.
     pub fn for_design(design: &Design) -> Weights {
         let n = design.footprints.len().max(1) as f64;
         let s = design
@@ -85,14 +86,23 @@ impl Weights {
             .map(|f| f.courtyard.area().sqrt())
             .sum::<f64>()
             / n;
-        let pin_weight: f64 = design
-            .net_pins
-            .iter()
-            .zip(&design.board.nets)
-            .filter(|(pins, _)| pins.len() >= 2)
-            .map(|(pins, net)| pins.len() as f64 * net.weight)
-            .sum();
-        let k = (pin_weight / n).max(1.0);
+        // Net-weighted connected pins per part; k is their 90th percentile, so the
+        // weight also holds the well-connected parts (ICs, connectors) apart, not just
+        // the average two-pin part.
+        let mut per_part = vec![0.0; design.footprints.len()];
+        for (pins, net) in design.net_pins.iter().zip(&design.board.nets) {
+            if pins.len() >= 2 {
+                for p in pins {
+                    per_part[p.part.index()] += net.weight;
+                }
+            }
+        }
+        per_part.sort_by(f64::total_cmp);
+        let k = per_part
+            .get((per_part.len() * 9) / 10)
+            .copied()
+            .unwrap_or(1.0)
+            .max(1.0);
         let area = 2.0 * k / s.max(0.1);
         Weights {
             wirelength: 1.0,
@@ -787,6 +797,11 @@ impl Layout {
         self.net_len.iter().sum()
     }
 
+    /// Number of connected pins of a part.
+    pub fn pin_count(&self, part: u32) -> usize {
+        self.pins_of(part as usize).len()
+    }
+
     pub fn part_count(&self) -> usize {
         self.pos.len()
     }
@@ -899,20 +914,24 @@ impl Layout {
         out
     }
 
-    /// Names of the part keep-outs a part's courtyard intrudes on by more than `eps` mm^2.
-    pub fn keepouts_hit(&self, part: u32, eps: f64) -> Vec<String> {
+    /// The part keep-outs a part's courtyard intrudes on by more than `eps` mm^2: name
+    /// and intruding area of each.
+    pub fn keepouts_hit(&self, part: u32, eps: f64) -> Vec<(String, f64)> {
         let i = part as usize;
         let c = self.court[i];
         self.keepouts
             .iter()
             .enumerate()
-            .filter(|(_, k)| k.mask & self.mask[i] != 0 && k.shape.overlap_with_rect(&c) > eps)
-            .map(|(k, ko)| {
-                if ko.name.is_empty() {
-                    format!("keep-out #{}", k + 1)
+            .filter(|(_, k)| k.mask & self.mask[i] != 0)
+            .map(|(k, ko)| (k, ko, ko.shape.overlap_with_rect(&c)))
+            .filter(|(_, _, a)| *a > eps)
+            .map(|(k, ko, a)| {
+                let name = if ko.name.is_empty() {
+                    format!("#{}", k + 1)
                 } else {
                     ko.name.clone()
-                }
+                };
+                (name, a)
             })
             .collect()
     }

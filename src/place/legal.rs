@@ -55,7 +55,7 @@ impl std::fmt::Display for Conflict {
 }
 
 /// Every conflict in the layout, each pair of overlapping parts once.
-pub fn conflicts(layout: &mut Layout, refs: &[String]) -> Vec<Conflict> {
+pub fn conflicts(layout: &Layout, refs: &[String]) -> Vec<Conflict> {
     let mut out = Vec::new();
     for i in 0..layout.part_count() as u32 {
         for j in layout.overlapping(i, AREA_EPS) {
@@ -78,19 +78,23 @@ pub fn conflicts(layout: &mut Layout, refs: &[String]) -> Vec<Conflict> {
                 area_mm2: o,
             });
         }
-        for k in layout.keepouts_hit(i, AREA_EPS) {
-            let (_, _, ko) = layout.part_violations(i);
+        // A locked part stands where the user put it: a keep-out around a mounting
+        // hole is for the other parts, so locked parts are not flagged against it.
+        if layout.is_locked(i) {
+            continue;
+        }
+        for (k, area) in layout.keepouts_hit(i, AREA_EPS) {
             out.push(Conflict {
                 parts: vec![refs[i as usize].clone()],
                 kind: ConflictKind::Keepout(k),
-                area_mm2: ko,
+                area_mm2: area,
             });
         }
     }
     out
 }
 
-fn violation_of(layout: &mut Layout, part: u32) -> f64 {
+fn violation_of(layout: &Layout, part: u32) -> f64 {
     let (a, b, c) = layout.part_violations(part);
     a + b + c
 }
@@ -115,18 +119,31 @@ pub fn legalize(an: &mut Annealer, refs: &[String]) -> Vec<Conflict> {
         }
     }
 
-    // 2. Move each part still in conflict to the nearest free grid spot (rings of grid
+    // 2. Let parts slide or swap apart: zero-temperature moves of the annealer's own
+    //    kind (displacements within the final window, swaps, turns) with the legality
+    //    terms weighted up step by step, so the small overlaps an annealed layout keeps
+    //    are removed by local moves, not jumps.
+    let sweeps = 8 * movable.len().max(1);
+    let base = *an.weights();
+    for f in [4.0, 16.0, 64.0] {
+        an.set_weights(base.with_legality_factor(f));
+        an.sample_at(0.0, 4 * sweeps as u64, |_| {});
+    }
+    an.set_weights(base);
+
+    // 3. Move each part still in conflict to the nearest free grid spot (rings of grid
     //    cells around it; among the first ring with free spots, the one adding the least
-    //    wirelength), worst offenders first.
-    let mut bad: Vec<(f64, u32)> = movable
+    //    wirelength). Parts with fewer pins go first: moving a capacitor out of an IC's
+    //    way costs less wiring than moving the IC.
+    let mut bad: Vec<(usize, f64, u32)> = movable
         .iter()
-        .map(|&i| (violation_of(an.layout_mut(), i), i))
-        .filter(|(v, _)| *v > AREA_EPS)
+        .map(|&i| (an.layout().pin_count(i), violation_of(an.layout(), i), i))
+        .filter(|(_, v, _)| *v > AREA_EPS)
         .collect();
-    bad.sort_by(|a, b| b.0.total_cmp(&a.0).then(a.1.cmp(&b.1)));
+    bad.sort_by(|a, b| a.0.cmp(&b.0).then(b.1.total_cmp(&a.1)).then(a.2.cmp(&b.2)));
     let bounds = an.layout().outline_bounds();
     let max_ring = ((bounds.width().max(bounds.height()) / g).ceil() as i64 + 2).max(2);
-    for (_, i) in bad {
+    for (_, _, i) in bad {
         let layout = an.layout_mut();
         let here = violation_of(layout, i);
         if here <= AREA_EPS {
@@ -173,19 +190,24 @@ pub fn legalize(an: &mut Annealer, refs: &[String]) -> Vec<Conflict> {
         }
     }
 
-    // 3. A short descent that never adds violation area: it shortens the wiring the
+    // 4. A short descent that never adds violation area: it shortens the wiring the
     //    repairs lengthened and removes what the repairs could not.
     let w = an.weights().with_legality_factor(1e3);
-    let sweeps = 8 * movable.len().max(1);
-    polish(an, &movable, &w, sweeps);
+    polish(an, &movable, &w, sweeps, true);
 
     an.layout_mut().resync();
-    conflicts(an.layout_mut(), refs)
+    conflicts(an.layout(), refs)
 }
 
-/// Zero-temperature single-part moves of a few grid cells and swaps of neighbours,
-/// accepted when they lower the energy and do not increase the violation area.
-fn polish(an: &mut Annealer, movable: &[u32], w: &super::layout::Weights, moves: usize) {
+/// Zero-temperature single-part moves of a few grid cells, accepted when they lower the
+/// energy (and, with `keep_legal`, do not increase the violation area).
+fn polish(
+    an: &mut Annealer,
+    movable: &[u32],
+    w: &super::layout::Weights,
+    moves: usize,
+    keep_legal: bool,
+) {
     if movable.is_empty() {
         return;
     }
@@ -208,7 +230,7 @@ fn polish(an: &mut Annealer, movable: &[u32], w: &super::layout::Weights, moves:
             quarter: layout.quarter(i),
         };
         let d = layout.evaluate(&[m]);
-        if d.violation() <= 1e-12 && d.energy(w) < 0.0 {
+        if (!keep_legal || d.violation() <= 1e-12) && d.energy(w) < 0.0 {
             layout.commit();
         } else {
             layout.revert();

@@ -38,6 +38,8 @@ pub struct PlaceReport {
     pub energy: f64,
     /// Raw half-perimeter wirelength over all nets, mm.
     pub wirelength_mm: f64,
+    /// The same at the end of annealing, before the legal finish.
+    pub annealed_wirelength_mm: f64,
     pub overlap_mm2: f64,
     pub outside_mm2: f64,
     pub keepout_mm2: f64,
@@ -99,6 +101,7 @@ pub fn finish(design: &Design, mut an: Annealer, start: Instant) -> Result<Place
         .iter()
         .map(|p| p.reference.clone())
         .collect();
+    let annealed_wirelength_mm = an.layout().wirelength_mm();
     let conflicts = legal::legalize(&mut an, &refs);
     let layout = an.layout();
     let terms = layout.terms();
@@ -108,6 +111,7 @@ pub fn finish(design: &Design, mut an: Annealer, start: Instant) -> Result<Place
     let report = PlaceReport {
         energy,
         wirelength_mm: layout.wirelength_mm(),
+        annealed_wirelength_mm,
         overlap_mm2: terms.overlap,
         outside_mm2: terms.outside,
         keepout_mm2: terms.keepout,
