@@ -4,4 +4,5 @@
 mod engine;
 mod footprints;
 mod io;
+mod place;
 mod samples;
