@@ -33,9 +33,9 @@ pub struct AnnealOptions {
     /// Fraction of moves that rotate a part instead of displacing or swapping it.
     pub rotate_fraction: f64,
     /// Fraction of moves aimed at the centroid of the part's net neighbours (a small
-    /// window around it) instead of a random spot in the window: a directed move, common
-    /// practice in annealing placers, that speeds up the ordering of large boards. Zero
-    /// keeps the proposal symmetric (needed for exact Boltzmann sampling).
+    /// window around it) instead of a random spot in the window: a directed move (common
+    /// practice in annealing placers). Directed moves are not symmetric, so Metropolis
+    /// sampling is exact only with zero (the default).
     pub directed_fraction: f64,
     /// The run is frozen when a stage accepts fewer than this fraction of moves and the
     /// best energy has not improved for `frozen_stages` stages.
@@ -147,7 +147,6 @@ pub struct Annealer {
     stage: u32,
     stage_acc: StageAccum,
     moves_per_stage: u64,
-    best_seen: f64,
     best_energy: f64,
     best_pos: Vec<Point>,
     best_quarter: Vec<Quarter>,
@@ -194,7 +193,13 @@ impl Annealer {
             .filter(|&i| !layout.is_locked(i))
             .collect();
         let n = movable.len().max(1) as f64;
-        let moves_per_stage = (opts.effort * n.powf(4.0 / 3.0)).ceil().max(100.0) as u64;
+        let mut moves_per_stage = (opts.effort * n.powf(4.0 / 3.0)).ceil().max(100.0) as u64;
+        // With a move cap, shorten the stages so the schedule can cool all the way within
+        // it, rather than being cut off while still hot.
+        if let Some(cap) = opts.max_moves {
+            let stages = opts.schedule.typical_stages().max(1.0);
+            moves_per_stage = moves_per_stage.min(((cap as f64 / stages) as u64).max(100));
+        }
         let max_window = bounds.width().max(bounds.height()).max(grid);
         let energy = layout.terms().energy(&weights);
         let mut a = Annealer {
@@ -215,7 +220,6 @@ impl Annealer {
             stage: 0,
             stage_acc: StageAccum::default(),
             moves_per_stage,
-            best_seen: energy,
             best_energy: energy,
             stale_stages: 0,
             change_eps: 1e-9 * energy.abs().max(1e-6),
@@ -289,8 +293,22 @@ impl Annealer {
         }
         let cx = (centre.x / g).round() as i64;
         let cy = (centre.y / g).round() as i64;
-        let tx = (cx + self.rng.symmetric(w)).clamp(self.cells.0, self.cells.1);
-        let ty = (cy + self.rng.symmetric(w)).clamp(self.cells.2, self.cells.3);
+        let tx = cx + self.rng.symmetric(w);
+        let ty = cy + self.rng.symmetric(w);
+        // A draw off the board is a null move rather than being clamped to the edge:
+        // clamping would make edge cells likelier targets than they are sources, and the
+        // proposal would no longer be symmetric (detailed balance). Only a part that is
+        // itself off the board is pulled back in by clamping.
+        let (x0, x1, y0, y1) = self.cells;
+        let inside = |c: i64, lo: i64, hi: i64| (lo..=hi).contains(&c);
+        let (tx, ty) = if inside(cx, x0, x1) && inside(cy, y0, y1) {
+            if !inside(tx, x0, x1) || !inside(ty, y0, y1) {
+                return None;
+            }
+            (tx, ty)
+        } else {
+            (tx.clamp(x0, x1), ty.clamp(y0, y1))
+        };
         let target = Point::new(tx as f64 * g, ty as f64 * g);
         if target == pos {
             return None;
@@ -330,9 +348,6 @@ impl Annealer {
             self.layout.commit();
             self.energy += de;
             self.accepted += 1;
-            if self.energy < self.best_seen {
-                self.best_seen = self.energy;
-            }
         } else {
             self.layout.revert();
         }
@@ -415,14 +430,13 @@ impl Annealer {
                 self.best_quarter.copy_from_slice(self.layout.quarters());
             }
         }
-        self.best_seen = self.best_seen.min(self.best_energy);
         self.stage += 1;
         self.history.push(StageReport {
             stage: self.stage,
             moves: self.moves,
             temperature: self.t,
             energy: self.energy,
-            best_energy: self.best_seen,
+            best_energy: self.best_energy,
             terms: self.layout.terms(),
             acceptance: acc,
             window: self.window,
@@ -502,9 +516,10 @@ impl Annealer {
     pub fn energy(&self) -> f64 {
         self.energy
     }
-    /// Lowest energy seen so far (after any move).
+    /// Lowest energy of a state the run can return to: the best state kept at a stage
+    /// end, or the current one.
     pub fn lowest_energy(&self) -> f64 {
-        self.best_seen
+        self.best_energy.min(self.energy)
     }
     pub fn moves(&self) -> u64 {
         self.moves
@@ -551,7 +566,6 @@ impl Annealer {
         self.weights = w;
         self.energy = self.layout.terms().energy(&w);
         self.best_energy = f64::INFINITY;
-        self.best_seen = self.energy;
     }
 
     /// Changes the schedule mid-run (the temperature carries over).

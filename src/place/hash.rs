@@ -175,14 +175,16 @@ impl SpatialHash {
         }
     }
 
-    /// The first entry other than `not` whose rectangle contains `p`.
+    /// The lowest id among the entries whose rectangle contains `p` and that pass
+    /// `keep` (lowest, so the answer does not depend on the order of the bin).
     #[inline]
-    pub fn at_point(&self, p: crate::model::Point, not: u32) -> Option<u32> {
+    pub fn min_at_point(&self, p: crate::model::Point, keep: impl Fn(u32) -> bool) -> Option<u32> {
         let x = self.cell(p.x, self.x0, self.nx);
         let y = self.cell(p.y, self.y0, self.ny);
         self.bins[y * self.nx + x]
             .iter()
-            .find(|e| e.id != not && e.rect.contains(p))
+            .filter(|e| e.rect.contains(p) && keep(e.id))
             .map(|e| e.id)
+            .min()
     }
 }

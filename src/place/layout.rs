@@ -879,11 +879,14 @@ impl Layout {
         (k > 0).then(|| Point::new(sx / f64::from(k), sy / f64::from(k)))
     }
 
-    /// A part other than `not` whose grown courtyard contains `p` (the swap partner of a
-    /// move aimed at `p`).
+    /// The part other than `not` whose origin is exactly `p` (the lowest-numbered if
+    /// several are stacked there): the swap partner of a move aimed at `p`. Matching the
+    /// origin, not the courtyard, keeps a swap its own reverse (A to B's spot and B to A's
+    /// is undone by the same swap), which detailed balance needs.
     #[inline]
     pub fn part_at(&self, p: Point, not: u32) -> Option<u32> {
-        self.hash.at_point(p, not)
+        self.hash
+            .min_at_point(p, |id| id != not && self.pos[id as usize] == p)
     }
 
     /// Overlap, outside and keep-out areas of one part (for conflict reports).

@@ -66,6 +66,18 @@ impl Schedule {
         matches!(self, Schedule::Descent)
     }
 
+    /// About how many stages the schedule takes to cool a thousandfold (to size stages
+    /// when the total number of moves is capped).
+    pub fn typical_stages(&self) -> f64 {
+        match *self {
+            Schedule::Geometric { alpha } => (1000f64).ln() / -alpha.ln(),
+            Schedule::LundyMees { beta } => 999.0 / beta,
+            Schedule::LamDelosme { .. } => 150.0,
+            Schedule::Huang { .. } => 80.0,
+            Schedule::Descent => 30.0,
+        }
+    }
+
     /// Whether the schedule needs a total move budget to steer by.
     pub fn needs_budget(&self) -> bool {
         matches!(self, Schedule::LamDelosme { .. })
