@@ -36,10 +36,18 @@ impl Point {
         self.x.is_finite() && self.y.is_finite()
     }
 
+    #[allow(
+        clippy::should_implement_trait,
+        reason = "plain methods keep the few call sites explicit"
+    )]
     pub fn add(self, o: Point) -> Point {
         Point::new(self.x + o.x, self.y + o.y)
     }
 
+    #[allow(
+        clippy::should_implement_trait,
+        reason = "plain methods keep the few call sites explicit"
+    )]
     pub fn sub(self, o: Point) -> Point {
         Point::new(self.x - o.x, self.y - o.y)
     }
