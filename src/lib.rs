@@ -5,8 +5,10 @@
 //! - [`io`]: reading and atomically writing board files, with errors located by line and
 //!   column;
 //! - [`place`]: the incremental placement energy, moves, cooling schedules and the
-//!   annealer.
+//!   annealer;
+//! - [`rules`]: the design-rule checker and the IPC-2221 conductor tables.
 //!
 //! See docs/ARCHITECTURE.md for the map of modules and the invariants.
 
 pub mod model;
+pub mod rules;
