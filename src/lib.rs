@@ -6,9 +6,11 @@
 //!   column;
 //! - [`place`]: the incremental placement energy, moves, cooling schedules and the
 //!   annealer;
+//! - [`route`]: the grid router (A* with rip-up and reroute by negotiated congestion);
 //! - [`rules`]: the design-rule checker and the IPC-2221 conductor tables.
 //!
 //! See docs/ARCHITECTURE.md for the map of modules and the invariants.
 
 pub mod model;
+pub mod route;
 pub mod rules;

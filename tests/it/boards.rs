@@ -1,7 +1,7 @@
 //! Small boards built by hand for the rules and routing tests (Chip and Custom footprints
 //! only), and a synthetic board generator for timing the router.
 
-use lehr::model::board::{Copper, Net, Part, Rules, Track, Via};
+use lehr::model::board::{Copper, Keepout, Layers, Net, NetClass, Part, Rules, Track, Via};
 use lehr::model::footprint::PadSpec;
 use lehr::model::{Board, Design, FootprintSpec, Layer, PadShape, Point, Shape, Side};
 
@@ -138,6 +138,27 @@ pub fn via(net: &str, at: Point) -> Via {
     }
 }
 
+pub fn copper_keepout(name: &str, shape: Shape) -> Keepout {
+    Keepout {
+        name: name.into(),
+        shape,
+        layers: Layers::Both,
+        parts: true,
+        copper: true,
+    }
+}
+
+pub fn power_class() -> NetClass {
+    NetClass {
+        name: "power".into(),
+        track_width: 0.4,
+        clearance: 0.25,
+        current: Some(1.0),
+        voltage: Some(12.0),
+        temp_rise: None,
+    }
+}
+
 pub fn design(board: Board) -> Design {
     match lehr::model::resolve(board) {
         Ok(d) => d,
@@ -150,6 +171,45 @@ pub fn design(board: Board) -> Design {
                 .join("; ")
         ),
     }
+}
+
+/// The small hand-placed board the routing tests use: a through-hole connector, an
+/// 8-pin SMD part, chip parts on both sides, a power class and a copper keep-out in the
+/// middle of the board.
+pub fn small_board() -> Board {
+    let mut parts = vec![
+        header("J1", 3, p(4.0, 3.0)),
+        soic8("U1", p(20.0, 12.0)),
+        chip("R1", "0805", p(10.0, 12.0), 90.0),
+        chip("R2", "0805", p(12.0, 17.0), 0.0),
+        chip("C1", "0603", p(27.0, 12.0), 90.0),
+        chip("C2", "0603", p(26.0, 5.0), 0.0),
+    ];
+    let mut r3 = chip("R3", "0603", p(15.0, 6.0), 0.0);
+    r3.side = Side::Bottom;
+    parts.push(r3);
+    let mut nets = vec![
+        net("VCC", &["J1.1", "R1.1", "U1.8", "C1.1"]),
+        net("GND", &["J1.2", "U1.4", "C1.2", "C2.2", "R3.2"]),
+        net("SIG", &["J1.3", "R2.1", "U1.2"]),
+        net("FB", &["R1.2", "R2.2", "U1.3"]),
+        net("OUT", &["U1.6", "C2.1"]),
+        net("EN", &["U1.1", "R3.1"]),
+    ];
+    nets[0].class = Some("power".into());
+    nets[1].class = Some("power".into());
+    let mut b = board(32.0, 22.0, parts, nets);
+    b.classes.push(power_class());
+    b.keepouts.push(copper_keepout(
+        "mounting",
+        Shape::Polygon(vec![
+            p(14.0, 19.0),
+            p(17.0, 19.0),
+            p(17.0, 21.0),
+            p(14.0, 21.0),
+        ]),
+    ));
+    b
 }
 
 /// A small deterministic generator (64-bit LCG, Knuth's MMIX constants) for the
@@ -176,14 +236,28 @@ impl Lcg {
     }
 }
 
-/// A synthetic board of about `n` parts on a regular grid (invented test data): chip
-/// parts, 8-pin SMD parts and headers, with a ground net and a supply net over many
+/// A synthetic board of about `n` parts on a regular 9 mm grid (invented test data):
+/// chip parts, 8-pin SMD parts and headers, with a ground net and a supply net over many
 /// parts and short signal nets between neighbours.
 pub fn synthetic(n: usize, seed: u64) -> Board {
+    synthetic_at(n, seed, 9.0)
+}
+
+/// [`synthetic`] packed on a 7.5 mm grid (the 8-pin parts' courtyards are 7.4 mm tall),
+/// with ground and supply in a 0.4 mm power class.
+pub fn synthetic_dense(n: usize, seed: u64) -> Board {
+    let mut b = synthetic_at(n, seed, 7.5);
+    b.classes.push(power_class());
+    for net in &mut b.nets[..2] {
+        net.class = Some("power".into());
+    }
+    b
+}
+
+fn synthetic_at(n: usize, seed: u64, pitch: f64) -> Board {
     let mut rng = Lcg::new(seed);
     let cols = ((n as f64 * 1.5).sqrt()).ceil() as usize;
     let rows = n.div_ceil(cols);
-    let pitch = 9.0;
     let mut parts = Vec::new();
     // Pins of each part, free for nets.
     let mut free: Vec<Vec<String>> = Vec::new();
