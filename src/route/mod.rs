@@ -10,8 +10,8 @@
 //!   Through-hole pads block both layers, SMD pads only their side.
 //! - `negotiate`: multi-pin nets grow as a tree, each next pin joined to the nearest
 //!   copper the net already has by a multi-source A*. Nets then negotiate for space
-//!   (McMurchie and Ebeling, FPGA 1995): a grid point costs (base + history) x present
-//!   congestion; the nets that share space are ripped up and rerouted, with the present
+//!   (McMurchie and Ebeling, FPGA 1995; the cost form as recalled, from memory): a grid
+//!   point costs (base + history) x present congestion; the nets that share space are ripped up and rerouted, with the present
 //!   penalty growing each pass and the history of contested points remembered, until no
 //!   space is shared or the pass limit is reached. Nets still in conflict then give way one
 //!   by one and are rerouted with contested space forbidden, so the result never has two
@@ -95,22 +95,28 @@ pub enum RoutePhase {
 /// net routed and every pass.
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub struct RouteProgress {
+    /// What the router is doing.
     pub phase: RoutePhase,
     /// Pass of rip-up and reroute, from 1.
     pub pass: u32,
+    /// The pass limit ([`RouteOptions::max_passes`]), for a progress bar.
     pub max_passes: u32,
-    /// Nets routed so far in this pass, and how many the pass routes.
+    /// Nets routed so far in this pass.
     pub done_in_pass: usize,
+    /// Nets this pass routes.
     pub nets_in_pass: usize,
     /// Nets still sharing space with another net, as of the end of the last pass.
     pub conflicting_nets: usize,
+    /// Time since routing started.
     pub seconds: f64,
 }
 
 /// A net the router could not finish, and why.
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub struct Unrouted {
+    /// The net's name.
     pub net: String,
+    /// A sentence for the user: which pin could not be reached and what is in the way.
     pub why: String,
 }
 
@@ -123,11 +129,15 @@ pub struct RouteResult {
     pub nets: usize,
     /// Nets with every pin connected.
     pub routed: usize,
+    /// Nets not finished (including those that could not start), with the reason.
     pub unrouted: Vec<Unrouted>,
+    /// Total length of the tracks' centre lines.
     pub track_length_mm: f64,
+    /// Number of vias.
     pub vias: usize,
     /// Passes of rip-up and reroute run.
     pub passes: u32,
+    /// Time the whole run took.
     pub seconds: f64,
     /// The cancel flag stopped the run early; the copper is still legal.
     pub cancelled: bool,
@@ -136,14 +146,19 @@ pub struct RouteResult {
 /// Why routing could not start.
 #[derive(Clone, Debug, PartialEq, Error)]
 pub enum RouteError {
+    /// The board over the routing grid needs more points than [`MAX_GRID_POINTS`].
     #[error(
         "the routing grid would have {points} points per layer ({width} x {height}), more than \
          the {limit} allowed; use a coarser routing grid"
     )]
     GridTooLarge {
+        /// Grid points across.
         width: usize,
+        /// Grid points up.
         height: usize,
+        /// `width · height`.
         points: usize,
+        /// [`MAX_GRID_POINTS`].
         limit: usize,
     },
 }

@@ -273,12 +273,17 @@ pub type Cell = (usize, usize, usize);
 /// change of layer at one cell `via_cost`. Diagonal steps may not cut a blocked corner.
 #[derive(Clone, Debug, PartialEq)]
 pub struct Maze {
+    /// Cells across.
     pub width: usize,
+    /// Cells up.
     pub height: usize,
+    /// Number of planes.
     pub layers: usize,
     /// One flag per cell, indexed by [`Maze::index`].
     pub blocked: Vec<bool>,
+    /// Cost of changing plane at one cell.
     pub via_cost: f64,
+    /// Allow the four diagonal steps.
     pub diagonal: bool,
 }
 
@@ -295,6 +300,7 @@ impl Maze {
         }
     }
 
+    /// Where a cell's flag is in [`Maze::blocked`].
     pub fn index(&self, (x, y, l): Cell) -> usize {
         (l * self.height + y) * self.width + x
     }

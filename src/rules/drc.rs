@@ -70,6 +70,7 @@ pub enum ViolationKind {
 /// One broken rule, with what and where, ready to show or to write as JSON.
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub struct Violation {
+    /// The rule broken.
     pub kind: ViolationKind,
     /// A sentence for the user, with the measured and the required figures.
     pub message: String,

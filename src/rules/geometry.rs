@@ -17,9 +17,21 @@ use crate::model::{Design, Layer, PadKind, PadShape, PartId, Point, Rect, Side, 
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub enum Prim {
     /// The points within `r` of the segment `a`-`b`.
-    Seg { a: Point, b: Point, r: f64 },
+    Seg {
+        /// One end.
+        a: Point,
+        /// The other end.
+        b: Point,
+        /// The growth: half a track's width.
+        r: f64,
+    },
     /// The points within `r` of the (possibly degenerate) rectangle `core`.
-    Box { core: Rect, r: f64 },
+    Box {
+        /// The rectangle grown; a point for a disc, a segment for an oval.
+        core: Rect,
+        /// The growth: the corner radius.
+        r: f64,
+    },
 }
 
 impl Prim {
@@ -40,6 +52,7 @@ impl Prim {
         }
     }
 
+    /// How far the shape reaches beyond its core.
     pub fn radius(&self) -> f64 {
         match *self {
             Prim::Seg { r, .. } | Prim::Box { r, .. } => r,
@@ -243,11 +256,16 @@ fn crossing(a: Point, b: Point, c: Point, d: Point) -> Option<Point> {
 pub struct Layers(pub u8);
 
 impl Layers {
+    /// No copper (an unplated hole).
     pub const NONE: Layers = Layers(0);
+    /// Top copper only.
     pub const TOP: Layers = Layers(1);
+    /// Bottom copper only.
     pub const BOTTOM: Layers = Layers(2);
+    /// Both (through-hole pads, vias).
     pub const BOTH: Layers = Layers(3);
 
+    /// The one layer.
     pub fn of(layer: Layer) -> Layers {
         match layer {
             Layer::Top => Layers::TOP,
@@ -255,6 +273,7 @@ impl Layers {
         }
     }
 
+    /// The copper of an SMD part on `side`.
     pub fn of_side(side: Side) -> Layers {
         match side {
             Side::Top => Layers::TOP,
@@ -262,6 +281,7 @@ impl Layers {
         }
     }
 
+    /// The layers a keep-out applies to.
     pub fn from_keepout(l: crate::model::board::Layers) -> Layers {
         match l {
             crate::model::board::Layers::Both => Layers::BOTH,
@@ -270,10 +290,12 @@ impl Layers {
         }
     }
 
+    /// Whether the two sets share a layer (so their copper can touch).
     pub fn meets(self, o: Layers) -> bool {
         self.0 & o.0 != 0
     }
 
+    /// Whether the set holds `layer`.
     pub fn has(self, layer: Layer) -> bool {
         self.meets(Layers::of(layer))
     }
@@ -311,6 +333,7 @@ pub fn pad_prim(c: Point, w: f64, h: f64, shape: PadShape) -> Prim {
 pub struct PlacedPad {
     /// Centre on the board.
     pub at: Point,
+    /// The copper (or, for an unplated hole, the hole).
     pub prim: Prim,
     /// Layers with copper; [`Layers::NONE`] for an unplated hole.
     pub layers: Layers,

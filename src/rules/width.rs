@@ -36,7 +36,9 @@ mains needs the local safety standard and a licensed review";
 /// Where a conductor runs: outer layers shed heat to the air and carry twice the current.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize)]
 pub enum LayerPosition {
+    /// Top or bottom copper (`k = 0.048`).
     Outer,
+    /// Copper inside a multilayer board (`k = 0.024`).
     Inner,
 }
 

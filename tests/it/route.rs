@@ -293,6 +293,32 @@ fn small_board_routes_with_diagonal_steps() {
 }
 
 #[test]
+fn polygon_outline_is_respected() {
+    // Chamfered corners: 3 mm off each corner of the 32 x 22 board.
+    let mut board = small_board();
+    board.outline = Shape::Polygon(vec![
+        p(3.0, 0.0),
+        p(29.0, 0.0),
+        p(32.0, 3.0),
+        p(32.0, 19.0),
+        p(29.0, 22.0),
+        p(3.0, 22.0),
+        p(0.0, 19.0),
+        p(0.0, 3.0),
+    ]);
+    let d = design(board.clone());
+    assert!(
+        check(&d)
+            .iter()
+            .all(|v| v.kind == ViolationKind::Unconnected)
+    );
+    let (r, _) = run(&d, &RouteOptions::default());
+    assert_eq!(r.routed, 6, "unrouted: {:?}", r.unrouted);
+    let v = check(&with_copper(&board, &r));
+    assert!(v.is_empty(), "{v:#?}");
+}
+
+#[test]
 fn routing_is_deterministic() {
     let d = design(small_board());
     let (a, _) = run(&d, &RouteOptions::default());
@@ -429,14 +455,17 @@ fn route_timing() {
                 .all(|v| v.kind == ViolationKind::Unconnected)
         );
         let (r, _) = run(&d, &RouteOptions::default());
-        let v = check(&with_copper(&board, &r));
+        let routed = with_copper(&board, &r);
+        let t = std::time::Instant::now();
+        let v = check(&routed);
+        let check_s = t.elapsed().as_secs_f64();
         let bad: Vec<_> = v
             .iter()
             .filter(|v| v.kind != ViolationKind::Unconnected)
             .collect();
         println!(
             "{n} parts{}: {} nets, {} routed, {} unrouted, {:.0} mm, {} vias, {} passes, {:.2} s, \
-             {} violations ({} not unconnected)",
+             {} violations ({} not unconnected), checked in {check_s:.3} s",
             if dense { " (dense)" } else { "" },
             r.nets,
             r.routed,
