@@ -430,67 +430,104 @@ pub(crate) struct Surroundings<'a> {
     pub max_clearance: f64,
 }
 
-/// The grid point a pin is entered at: the one nearest the pad centre whose stub (a track
-/// from the centre to the point) clears every fixed obstacle of other nets, the board
-/// edge and the keep-outs. Returns the planar index and the point.
-#[allow(clippy::too_many_arguments)]
-pub(crate) fn choose_access(
-    lat: &Lattice,
-    centre: Point,
-    pad: &Prim,
-    layers: Layers,
-    net: u32,
-    rule: ClassRule,
-    obstacles: &[Obstacle],
-    buckets: &mut Buckets,
-    around: &Surroundings,
-) -> Option<(usize, Point)> {
-    let area = pad.bounds().inflate(lat.pitch);
-    let (x0, x1, y0, y1) = lat.range(&area)?;
-    let mut candidates: Vec<(f64, usize, Point)> = Vec::new();
-    for y in y0..=y1 {
-        for x in x0..=x1 {
-            let p = lat.point(x, y);
-            candidates.push((
-                crate::rules::geometry::dist(p, centre),
-                y * lat.dims.w + x,
-                p,
-            ));
+/// The fixed copper (pads, holes and the stubs chosen so far) with a bucket index, and
+/// what else stubs must clear.
+pub(crate) struct Fixed<'a> {
+    pub obstacles: Vec<Obstacle>,
+    buckets: Buckets,
+    around: Surroundings<'a>,
+    near: Vec<u32>,
+}
+
+impl<'a> Fixed<'a> {
+    pub fn new(obstacles: Vec<Obstacle>, area: Rect, around: Surroundings<'a>) -> Self {
+        let mut buckets = Buckets::new(area, 2.0);
+        for (i, o) in obstacles.iter().enumerate() {
+            buckets.insert(i as u32, &o.prim.bounds());
+        }
+        Fixed {
+            obstacles,
+            buckets,
+            around,
+            near: Vec::new(),
         }
     }
-    candidates.sort_by(|a, b| a.0.total_cmp(&b.0).then(a.1.cmp(&b.1)));
-    let mut near = Vec::new();
-    'next: for (_, i, p) in candidates {
+
+    /// Adds fixed copper (a stub).
+    pub fn add(&mut self, o: Obstacle) {
+        self.buckets
+            .insert(self.obstacles.len() as u32, &o.prim.bounds());
+        self.obstacles.push(o);
+    }
+
+    /// Whether a track of `rule`'s width from `centre` to `p` on `layers`, belonging to
+    /// `net`, clears the board edge, the keep-outs and other nets' fixed copper.
+    pub fn stub_is_clear(
+        &mut self,
+        centre: Point,
+        p: Point,
+        layers: Layers,
+        net: u32,
+        rule: ClassRule,
+    ) -> bool {
+        let around = &self.around;
         let stub = Prim::track(centre, p, rule.width);
         if !around.outline.contains(centre) || !around.outline.contains(p) {
-            continue;
+            return false;
         }
-        for (a, b) in edges(around.outline_vertices) {
-            if stub.gap_to_segment(a, b).0 < around.edge_clearance - SLACK {
-                continue 'next;
-            }
+        if edges(around.outline_vertices)
+            .any(|(a, b)| stub.gap_to_segment(a, b).0 < around.edge_clearance - SLACK)
+        {
+            return false;
         }
         for (poly, kl) in around.keepouts {
-            if !kl.meets(layers) {
-                continue;
-            }
-            if crate::model::geom::point_in_polygon(p, poly)
-                || edges(poly).any(|(a, b)| stub.gap_to_segment(a, b).0 < rule.clearance - SLACK)
+            if kl.meets(layers)
+                && (crate::model::geom::point_in_polygon(p, poly)
+                    || edges(poly)
+                        .any(|(a, b)| stub.gap_to_segment(a, b).0 < rule.clearance - SLACK))
             {
-                continue 'next;
+                return false;
             }
         }
-        buckets.query(&stub.bounds().inflate(around.max_clearance), &mut near);
-        for &j in &near {
-            let o = &obstacles[j as usize];
-            if o.owner == net || !o.layers.meets(layers) {
-                continue;
-            }
-            if stub.gap(&o.prim).0 < rule.clearance.max(o.clearance) - SLACK {
-                continue 'next;
-            }
-        }
-        return Some((i, p));
+        self.buckets
+            .query(&stub.bounds().inflate(around.max_clearance), &mut self.near);
+        self.near.iter().all(|&j| {
+            let o = &self.obstacles[j as usize];
+            o.owner == net
+                || !o.layers.meets(layers)
+                || stub.gap(&o.prim).0 >= rule.clearance.max(o.clearance) - SLACK
+        })
     }
-    None
+
+    /// The grid point a pin is entered at: the one nearest the pad centre whose stub (a
+    /// track from the centre to the point) is clear ([`Fixed::stub_is_clear`]). Returns
+    /// the planar index and the point.
+    pub fn choose_access(
+        &mut self,
+        lat: &Lattice,
+        pad: &Prim,
+        centre: Point,
+        layers: Layers,
+        net: u32,
+        rule: ClassRule,
+    ) -> Option<(usize, Point)> {
+        let area = pad.bounds().inflate(lat.pitch);
+        let (x0, x1, y0, y1) = lat.range(&area)?;
+        let mut candidates: Vec<(f64, usize, Point)> = Vec::new();
+        for y in y0..=y1 {
+            for x in x0..=x1 {
+                let p = lat.point(x, y);
+                candidates.push((
+                    crate::rules::geometry::dist(p, centre),
+                    y * lat.dims.w + x,
+                    p,
+                ));
+            }
+        }
+        candidates.sort_by(|a, b| a.0.total_cmp(&b.0).then(a.1.cmp(&b.1)));
+        candidates
+            .into_iter()
+            .find(|&(_, _, p)| self.stub_is_clear(centre, p, layers, net, rule))
+            .map(|(_, i, p)| (i, p))
+    }
 }

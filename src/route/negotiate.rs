@@ -14,7 +14,7 @@ use std::sync::atomic::{AtomicBool, Ordering};
 use std::time::Instant;
 
 use super::grid::{
-    ClassRule, Lattice, MapBuilder, Obstacle, SLACK, StaticMaps, Surroundings, WALL, choose_access,
+    ClassRule, Fixed, Lattice, MapBuilder, Obstacle, SLACK, StaticMaps, Surroundings, WALL,
     edge_of_step, free_for,
 };
 use super::search::{Costs, DIRS, Dims, Params, Place, Search};
@@ -23,7 +23,7 @@ use super::{
 };
 use crate::model::board::{Copper, Track, Via};
 use crate::model::{Design, Layer, PartId, Point};
-use crate::rules::geometry::{Buckets, Layers, Prim, dist, placed_pad};
+use crate::rules::geometry::{Layers, Prim, dist, placed_pad};
 
 /// A pin of a net to route.
 #[derive(Clone, Debug)]
@@ -207,10 +207,6 @@ impl<'a> Router<'a> {
         let area = obstacles
             .iter()
             .fold(board.outline.bounds(), |r, o| r.union(&o.prim.bounds()));
-        let mut buckets = Buckets::new(area, 2.0);
-        for (i, o) in obstacles.iter().enumerate() {
-            buckets.insert(i as u32, &o.prim.bounds());
-        }
 
         // Nets to route, shortest first (by half-perimeter of their pins).
         let mut nets = Vec::new();
@@ -268,13 +264,17 @@ impl<'a> Router<'a> {
             .filter(|k| k.copper)
             .map(|k| (k.shape.vertices(), Layers::from_keepout(k.layers)))
             .collect();
-        let around = Surroundings {
-            outline: &board.outline,
-            outline_vertices: &outline_vertices,
-            edge_clearance: rules.edge_clearance,
-            keepouts: &keepouts,
-            max_clearance,
-        };
+        let mut fixed = Fixed::new(
+            obstacles,
+            area,
+            Surroundings {
+                outline: &board.outline,
+                outline_vertices: &outline_vertices,
+                edge_clearance: rules.edge_clearance,
+                keepouts: &keepouts,
+                max_clearance,
+            },
+        );
         for &k in &order {
             let plan = &mut nets[k];
             if plan.problem.is_some() {
@@ -282,36 +282,37 @@ impl<'a> Router<'a> {
             }
             let rule = classes[plan.class];
             for pin in &mut plan.pins {
-                match choose_access(
-                    &lat,
-                    pin.centre,
-                    &pin.pad,
-                    pin.layers,
-                    plan.index as u32,
-                    rule,
-                    &obstacles,
-                    &mut buckets,
-                    &around,
-                ) {
+                let net = plan.index as u32;
+                match fixed.choose_access(&lat, &pin.pad, pin.centre, pin.layers, net, rule) {
                     Some((i, p)) => {
                         pin.access = i;
                         pin.access_point = p;
-                        let stub = Obstacle {
+                        fixed.add(Obstacle {
                             prim: Prim::track(pin.centre, p, rule.width),
                             layers: pin.layers,
-                            owner: plan.index as u32,
+                            owner: net,
                             clearance: rule.clearance,
                             smd_pad: false,
-                        };
-                        buckets.insert(obstacles.len() as u32, &stub.prim.bounds());
-                        obstacles.push(stub);
+                        });
                     }
                     None => {
-                        plan.problem = Some(format!(
-                            "pin {}: no grid point near the pad centre leaves room for a {} mm \
-                             track (try a finer routing grid)",
-                            pin.name, rule.width
-                        ));
+                        // Does the track fit at the pad centre at all, off the grid?
+                        let fits =
+                            fixed.stub_is_clear(pin.centre, pin.centre, pin.layers, net, rule);
+                        plan.problem = Some(if fits {
+                            format!(
+                                "pin {}: no point of the {} mm routing grid near the pad centre \
+                                 leaves room for a {} mm track (try a finer routing grid)",
+                                pin.name, lat.pitch, rule.width
+                            )
+                        } else {
+                            format!(
+                                "pin {}: a {} mm track with {} mm clearance does not fit at the \
+                                 pad; neighbouring copper, a keep-out or the board edge is too \
+                                 close (the net's class is too wide for this footprint)",
+                                pin.name, rule.width, rule.clearance
+                            )
+                        });
                         break;
                     }
                 }
@@ -331,7 +332,7 @@ impl<'a> Router<'a> {
             opts.diagonal,
             !opts.vias_in_pads,
         );
-        for o in &obstacles {
+        for o in &fixed.obstacles {
             builder.add_copper(o);
         }
         builder.add_region(&outline_vertices, Layers::BOTH, true, |_| {

@@ -366,6 +366,41 @@ fn a_walled_in_pin_is_reported_and_the_rest_stays_legal() {
 }
 
 #[test]
+fn a_class_too_wide_for_a_fine_pitch_part_is_explained() {
+    // Four 0.35 mm pads at 0.65 mm pitch: a 0.8 mm track with 0.25 mm clearance cannot
+    // reach the inner pins, whatever the grid.
+    let mut board = small_board();
+    let pads = (0..4)
+        .map(|i| {
+            smd(
+                &(i + 1).to_string(),
+                p(0.65 * i as f64, 0.0),
+                0.35,
+                1.2,
+                lehr::model::PadShape::Rect,
+            )
+        })
+        .collect();
+    board.parts.push(custom("U9", pads, p(6.0, 12.0)));
+    board.nets.push(net("HEAVY", &["U9.2", "R2.2"]));
+    board.nets.retain(|n| n.name != "FB");
+    board.nets.last_mut().unwrap().class = Some("power".into());
+    board.classes[0].track_width = 0.8;
+    let d = design(board);
+    let (r, _) = run(&d, &RouteOptions::default());
+    let heavy = r
+        .unrouted
+        .iter()
+        .find(|u| u.net == "HEAVY")
+        .expect("HEAVY unrouted");
+    assert!(
+        heavy.why.contains("too wide for this footprint"),
+        "{}",
+        heavy.why
+    );
+}
+
+#[test]
 fn unplaced_parts_leave_their_nets_unrouted() {
     let mut board = small_board();
     board
