@@ -6,6 +6,8 @@
 //!   column;
 //! - [`place`]: the incremental placement energy, moves, cooling schedules and the
 //!   annealer;
+//! - [`route`]: the grid router (A* with rip-up and reroute by negotiated congestion);
+//! - [`rules`]: the design-rule checker and the IPC-2221 conductor tables;
 //! - [`engine`]: the worker thread a user interface drives by messages.
 //!
 //! See docs/ARCHITECTURE.md for the map of modules and the invariants.
@@ -14,3 +16,5 @@ pub mod engine;
 pub mod io;
 pub mod model;
 pub mod place;
+pub mod route;
+pub mod rules;

@@ -6,3 +6,9 @@ mod footprints;
 mod io;
 mod place;
 mod samples;
+/// Hand-placed test boards and a synthetic board generator.
+mod boards;
+/// The router: A* against the `pathfinding` crate, and routed boards against the checker.
+mod route;
+/// IPC-2221 conductor sizing and the design-rule checker.
+mod rules;

@@ -1,0 +1,181 @@
+//! The router: connects each net's pins with tracks on two layers (top and bottom) and
+//! vias, on the grid of `rules.routing_grid`.
+//!
+//! - [`search`]: A* (Hart, Nilsson and Raphael, 1968) over the two-layer grid, with the
+//!   Manhattan heuristic (octile when 45-degree steps are on) and costs for length, vias
+//!   and bends. [`Maze`] exposes it on a plain grid.
+//! - `grid`: the fixed obstacles. Pads of other nets, copper keep-outs and the board edge
+//!   block every grid step whose track would come closer than half the track width plus
+//!   the clearance (per net class); the test is exact, not a rasterisation.
+//!   Through-hole pads block both layers, SMD pads only their side.
+//! - `negotiate`: multi-pin nets grow as a tree, each next pin joined to the nearest
+//!   copper the net already has by a multi-source A*. Nets then negotiate for space
+//!   (McMurchie and Ebeling, FPGA 1995; the cost form as recalled, from memory): a grid
+//!   point costs (base + history) x present congestion; the nets that share space are ripped up and rerouted, with the present
+//!   penalty growing each pass and the history of contested points remembered, until no
+//!   space is shared or the pass limit is reached. Nets still in conflict then give way one
+//!   by one and are rerouted with contested space forbidden, so the result never has two
+//!   nets too close; the nets that could not be finished are reported with the reason.
+//!
+//! **Invariant:** the copper the router returns passes [`crate::rules::drc::check`] with
+//! no clearance, edge, keep-out or width violation, by construction: tracks of different
+//! nets on the grid are kept apart by grid distance, fixed obstacles by exact geometry,
+//! and each pin is entered by a stub from its pad centre checked like any other copper.
+//! Existing copper on the board is ignored and replaced.
+//!
+//! **Invariant:** routing does no I/O and spawns no threads; the caller follows it through
+//! the progress callback and stops it with the cancel flag.
+
+mod grid;
+mod negotiate;
+pub mod search;
+
+use std::sync::atomic::AtomicBool;
+
+use serde::{Deserialize, Serialize};
+use thiserror::Error;
+
+use crate::model::Design;
+use crate::model::board::Copper;
+pub use search::{Cell, Maze};
+
+/// How the router searches and negotiates. Costs are in grid steps.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(default)]
+pub struct RouteOptions {
+    /// Allow 45-degree steps (octile heuristic).
+    pub diagonal: bool,
+    /// Cost of a via, in grid steps.
+    pub via_cost: f64,
+    /// Let vias overlap SMD pads (off by default: solder runs down an open via).
+    pub vias_in_pads: bool,
+    /// Cost of a change of direction, in grid steps.
+    pub bend_cost: f64,
+    /// Extra cost factor for a step against its layer's preferred direction (top prefers
+    /// horizontal, bottom vertical), which keeps the two layers from blocking each other.
+    pub wrong_way_cost: f64,
+    /// Most passes of rip-up and reroute.
+    pub max_passes: u32,
+    /// Present-congestion penalty per conflict in the first pass.
+    pub present_factor: f64,
+    /// The present penalty is multiplied by this after each pass.
+    pub present_growth: f64,
+    /// Added to a grid point's history cost each pass it is contested.
+    pub history_factor: f64,
+}
+
+impl Default for RouteOptions {
+    fn default() -> Self {
+        RouteOptions {
+            diagonal: false,
+            via_cost: 8.0,
+            vias_in_pads: false,
+            bend_cost: 0.5,
+            wrong_way_cost: 0.3,
+            max_passes: 30,
+            present_factor: 0.5,
+            present_growth: 1.6,
+            history_factor: 0.3,
+        }
+    }
+}
+
+/// Where the router is.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize)]
+pub enum RoutePhase {
+    /// Building the grid and choosing where each pin is entered.
+    Preparing,
+    /// Routing nets and negotiating for space.
+    Negotiating,
+    /// Removing the last conflicts and rerouting those nets around the others.
+    Settling,
+}
+
+/// A snapshot of the router's progress, sent through the progress callback after every
+/// net routed and every pass.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct RouteProgress {
+    /// What the router is doing.
+    pub phase: RoutePhase,
+    /// Pass of rip-up and reroute, from 1.
+    pub pass: u32,
+    /// The pass limit ([`RouteOptions::max_passes`]), for a progress bar.
+    pub max_passes: u32,
+    /// Nets routed so far in this pass.
+    pub done_in_pass: usize,
+    /// Nets this pass routes.
+    pub nets_in_pass: usize,
+    /// Nets still sharing space with another net, as of the end of the last pass.
+    pub conflicting_nets: usize,
+    /// Time since routing started.
+    pub seconds: f64,
+}
+
+/// A net the router could not finish, and why.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct Unrouted {
+    /// The net's name.
+    pub net: String,
+    /// A sentence for the user: which pin could not be reached and what is in the way.
+    pub why: String,
+}
+
+/// The routed copper and how it went.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct RouteResult {
+    /// Tracks and vias; partly routed nets keep the copper they got.
+    pub copper: Copper,
+    /// Nets with two or more pins, which need routing.
+    pub nets: usize,
+    /// Nets with every pin connected.
+    pub routed: usize,
+    /// Nets not finished (including those that could not start), with the reason.
+    pub unrouted: Vec<Unrouted>,
+    /// Total length of the tracks' centre lines.
+    pub track_length_mm: f64,
+    /// Number of vias.
+    pub vias: usize,
+    /// Passes of rip-up and reroute run.
+    pub passes: u32,
+    /// Time the whole run took.
+    pub seconds: f64,
+    /// The cancel flag stopped the run early; the copper is still legal.
+    pub cancelled: bool,
+}
+
+/// Why routing could not start.
+#[derive(Clone, Debug, PartialEq, Error)]
+pub enum RouteError {
+    /// The board over the routing grid needs more points than [`MAX_GRID_POINTS`].
+    #[error(
+        "the routing grid would have {points} points per layer ({width} x {height}), more than \
+         the {limit} allowed; use a coarser routing grid"
+    )]
+    GridTooLarge {
+        /// Grid points across.
+        width: usize,
+        /// Grid points up.
+        height: usize,
+        /// `width · height`.
+        points: usize,
+        /// [`MAX_GRID_POINTS`].
+        limit: usize,
+    },
+}
+
+/// Most grid points per layer (memory grows by about 100 bytes per point).
+pub const MAX_GRID_POINTS: usize = 6_000_000;
+
+/// Routes every net of the design with two or more placed pins (see the module
+/// documentation). `progress` is called often and should be cheap; set `cancel` from
+/// another thread to stop early with the nets finished so far.
+pub fn route(
+    design: &Design,
+    opts: &RouteOptions,
+    cancel: &AtomicBool,
+    progress: &mut dyn FnMut(&RouteProgress),
+) -> Result<RouteResult, RouteError> {
+    let start = std::time::Instant::now();
+    let mut router = negotiate::Router::new(design, opts, start)?;
+    Ok(router.run(cancel, progress))
+}
