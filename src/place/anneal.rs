@@ -618,17 +618,17 @@ impl Annealer {
         }
     }
 
-    /// Runs `n` single Metropolis steps at a fixed temperature without stage logic,
-    /// calling `visit` after each (used by the Boltzmann-distribution test).
+    /// Runs `n` single Metropolis steps at a fixed temperature outside the schedule (no
+    /// stage logic, not counted in [`Self::moves`]), calling `visit` after each: fixed-
+    /// temperature sampling and the legal finish's quench.
     pub fn sample_at(&mut self, t: f64, n: u64, mut visit: impl FnMut(&Layout)) {
-        let saved = self.t;
+        let saved = (self.t, self.moves, self.accepted, self.stage_acc);
         self.t = t;
         for _ in 0..n {
             self.step();
             visit(&self.layout);
         }
-        self.t = saved;
-        self.stage_acc = StageAccum::default();
+        (self.t, self.moves, self.accepted, self.stage_acc) = saved;
     }
 }
 

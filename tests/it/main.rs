@@ -1,14 +1,14 @@
 //! Integration tests, one binary (faster to build than one per file). Each module checks
 //! the engine against a source outside the project, named beside each check.
 
+/// Hand-placed test boards and a synthetic board generator.
+mod boards;
 mod engine;
 mod footprints;
 mod io;
 mod place;
-mod samples;
-/// Hand-placed test boards and a synthetic board generator.
-mod boards;
 /// The router: A* against the `pathfinding` crate, and routed boards against the checker.
 mod route;
 /// IPC-2221 conductor sizing and the design-rule checker.
 mod rules;
+mod samples;
