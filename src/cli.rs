@@ -39,6 +39,12 @@ enum Command {
     Generate(GenerateCommand),
     /// Measure placement speed and quality on generated boards.
     Bench(BenchArgs),
+    /// Route the nets of a placed board on two layers and write the routed board.
+    Route(crate::copper_cmds::RouteArgs),
+    /// Check a board's copper and parts against the design rules.
+    Check(crate::copper_cmds::CheckArgs),
+    /// Track width for a current (IPC-2221).
+    Width(crate::copper_cmds::WidthArgs),
 }
 
 #[derive(Args, Debug)]
@@ -128,6 +134,9 @@ pub fn run() -> Result<ExitCode> {
         Some(Command::Place(a)) => place_cmd(a),
         Some(Command::Generate(g)) => generate_cmd(g),
         Some(Command::Bench(b)) => crate::bench::run(&b),
+        Some(Command::Route(a)) => crate::copper_cmds::route_cmd(a),
+        Some(Command::Check(a)) => crate::copper_cmds::check_cmd(a),
+        Some(Command::Width(a)) => crate::copper_cmds::width_cmd(a),
     }
 }
 

@@ -3,6 +3,7 @@
 
 mod bench;
 mod cli;
+mod copper_cmds;
 
 use std::process::ExitCode;
 
