@@ -151,6 +151,8 @@ pub struct Annealer {
     best_pos: Vec<Point>,
     best_quarter: Vec<Quarter>,
     stale_stages: u32,
+    /// Move count at the last full recomputation of the energy terms.
+    last_resync: u64,
     /// Energy changes smaller than this are rounding (moves that change nothing).
     change_eps: f64,
     last_acceptance: f64,
@@ -222,6 +224,7 @@ impl Annealer {
             moves_per_stage,
             best_energy: energy,
             stale_stages: 0,
+            last_resync: 0,
             change_eps: 1e-9 * energy.abs().max(1e-6),
             last_acceptance: 1.0,
             done: false,
@@ -413,9 +416,13 @@ impl Annealer {
         // VPR placer's rule: w <- w * (1 - 0.44 + acceptance)).
         let g = self.layout.grid();
         self.window = (self.window * (1.0 - 0.44 + acc)).clamp(g, self.max_window);
-        // Drop accumulated rounding once per stage.
-        self.layout.resync();
-        self.energy = self.layout.terms().energy(&self.weights);
+        // Drop accumulated rounding now and then (a full recomputation costs about as
+        // much as a few moves per part, so not after every short stage).
+        if self.moves - self.last_resync >= 20 * self.layout.part_count() as u64 {
+            self.layout.resync();
+            self.energy = self.layout.terms().energy(&self.weights);
+            self.last_resync = self.moves;
+        }
         let scale = self.best_energy.abs().max(1e-12);
         if self.energy < self.best_energy - 1e-7 * scale {
             self.best_energy = self.energy;

@@ -131,16 +131,34 @@ pub struct PartMove {
     pub quarter: Quarter,
 }
 
+/// Everything a move reads and writes about one net, in one 64-byte cache line: the
+/// bounding box of its pins, the edge counts (kept for large nets only), its HPWL and its
+/// weight.
 #[derive(Clone, Copy, Debug, Default, PartialEq)]
+#[repr(C, align(64))]
 struct NetBox {
     xmin: f64,
     xmax: f64,
     ymin: f64,
     ymax: f64,
+    len: f64,
+    weight: f64,
     nxmin: u32,
     nxmax: u32,
     nymin: u32,
     nymax: u32,
+}
+
+/// Per-net bookkeeping of a move, packed so one cache line serves four nets.
+#[derive(Clone, Copy, Debug, Default)]
+struct NetMeta {
+    /// The net's pins are `net_pin_list[start..start + count]`.
+    start: u32,
+    count: u32,
+    /// Move generation that last touched the net.
+    stamp: u32,
+    /// The box must be rescanned (small net, or an edge count ran out).
+    dirty: bool,
 }
 
 impl NetBox {
@@ -223,9 +241,8 @@ pub struct Layout {
     pin_net: Vec<u32>,
     pin_part: Vec<u32>,
     pin_off: Vec<[Point; 4]>,
-    net_pin_start: Vec<u32>,
+    net_meta: Vec<NetMeta>,
     net_pin_list: Vec<u32>,
-    net_weight: Vec<f64>,
     outline: Shape,
     outline_bounds: Rect,
     outline_is_rect: bool,
@@ -236,19 +253,16 @@ pub struct Layout {
     quarter: Vec<Quarter>,
     court: Vec<Rect>,
     grown: Vec<Rect>,
-    pin_x: Vec<f64>,
-    pin_y: Vec<f64>,
+    /// Board position of each connected pin, x and y side by side (one cache line).
+    pin_xy: Vec<[f64; 2]>,
     bbox: Vec<NetBox>,
-    net_len: Vec<f64>,
     terms: Terms,
     hash: SpatialHash,
 
     // Scratch, reused across moves so a move allocates nothing.
-    net_stamp: Vec<u32>,
     net_gen: u32,
-    net_dirty: Vec<bool>,
     undo_pins: Vec<(u32, f64, f64)>,
-    undo_nets: Vec<(u32, NetBox, f64)>,
+    undo_nets: Vec<(u32, NetBox)>,
     pending: [PartMove; 2],
     pending_n: usize,
     pending_delta: Terms,
@@ -278,9 +292,8 @@ impl Layout {
             pin_net: Vec::new(),
             pin_part: Vec::new(),
             pin_off: Vec::new(),
-            net_pin_start: Vec::new(),
+            net_meta: Vec::new(),
             net_pin_list: Vec::new(),
-            net_weight: board.nets.iter().map(|n| n.weight).collect(),
             outline: board.outline.clone(),
             outline_bounds: board.outline.bounds(),
             outline_is_rect: matches!(board.outline, Shape::Rect { .. }),
@@ -299,15 +312,18 @@ impl Layout {
             quarter: Vec::with_capacity(n),
             court: Vec::with_capacity(n),
             grown: Vec::with_capacity(n),
-            pin_x: Vec::new(),
-            pin_y: Vec::new(),
-            bbox: Vec::new(),
-            net_len: Vec::new(),
+            pin_xy: Vec::new(),
+            bbox: board
+                .nets
+                .iter()
+                .map(|n| NetBox {
+                    weight: n.weight,
+                    ..NetBox::default()
+                })
+                .collect(),
             terms: Terms::default(),
             hash: SpatialHash::new(Rect::default(), 1.0, 1),
-            net_stamp: vec![0; board.nets.len()],
             net_gen: 0,
-            net_dirty: vec![false; board.nets.len()],
             undo_pins: Vec::new(),
             undo_nets: Vec::new(),
             pending: [PartMove {
@@ -371,10 +387,13 @@ impl Layout {
         }
         layout.part_pin_start.push(layout.pin_net.len() as u32);
         for pins in &part_pins_of_net {
-            layout.net_pin_start.push(layout.net_pin_list.len() as u32);
+            layout.net_meta.push(NetMeta {
+                start: layout.net_pin_list.len() as u32,
+                count: pins.len() as u32,
+                ..NetMeta::default()
+            });
             layout.net_pin_list.extend_from_slice(pins);
         }
-        layout.net_pin_start.push(layout.net_pin_list.len() as u32);
 
         // Spatial hash over the board and its surroundings; bins about twice the mean
         // grown courtyard side, so a typical part touches one to four bins.
@@ -404,19 +423,17 @@ impl Layout {
             self.grown.push(self.grown_off[i][q].translate(self.pos[i]));
         }
         let np = self.pin_net.len();
-        self.pin_x.resize(np, 0.0);
-        self.pin_y.resize(np, 0.0);
+        self.pin_xy.resize(np, [0.0; 2]);
         for i in 0..n {
             let q = self.quarter[i].index();
             for p in self.pins_of(i) {
                 let o = self.pin_off[p][q];
-                self.pin_x[p] = self.pos[i].x + o.x;
-                self.pin_y[p] = self.pos[i].y + o.y;
+                self.pin_xy[p] = [self.pos[i].x + o.x, self.pos[i].y + o.y];
             }
         }
-        let nn = self.net_weight.len();
-        self.bbox = (0..nn).map(|k| self.scan_box(k)).collect();
-        self.net_len = self.bbox.iter().map(NetBox::hpwl).collect();
+        for k in 0..self.bbox.len() {
+            self.bbox[k] = self.scan_box(k);
+        }
         // Rebuild the hash from scratch.
         let area = self.hash_area();
         self.hash = SpatialHash::new(area.0, area.1, (4 * n).max(64));
@@ -447,23 +464,41 @@ impl Layout {
 
     #[inline]
     fn net_start_len(&self, net: usize) -> usize {
-        (self.net_pin_start[net + 1] - self.net_pin_start[net]) as usize
+        self.net_meta[net].count as usize
     }
 
     #[inline]
     fn net_pins(&self, net: usize) -> &[u32] {
-        &self.net_pin_list[self.net_pin_start[net] as usize..self.net_pin_start[net + 1] as usize]
+        let m = self.net_meta[net];
+        &self.net_pin_list[m.start as usize..(m.start + m.count) as usize]
+    }
+
+    /// [`Self::scan_small_raw`] with the net's weight and length filled in.
+    #[inline]
+    fn scan_small(&self, net: usize) -> NetBox {
+        let mut b = self.scan_small_raw(net);
+        b.weight = self.bbox[net].weight;
+        b.len = b.hpwl();
+        b
+    }
+
+    /// [`Self::scan_box_raw`] with the net's weight and length filled in.
+    fn scan_box(&self, net: usize) -> NetBox {
+        let mut b = self.scan_box_raw(net);
+        b.weight = self.bbox[net].weight;
+        b.len = b.hpwl();
+        b
     }
 
     /// The box of a small net from its pins' current positions (no edge counts: small
     /// nets are always rescanned, so the counts would never be read).
     #[inline]
-    fn scan_small(&self, net: usize) -> NetBox {
+    fn scan_small_raw(&self, net: usize) -> NetBox {
         let pins = self.net_pins(net);
         let Some(&first) = pins.first() else {
             return NetBox::default();
         };
-        let (x, y) = (self.pin_x[first as usize], self.pin_y[first as usize]);
+        let [x, y] = self.pin_xy[first as usize];
         let mut b = NetBox {
             xmin: x,
             xmax: x,
@@ -472,7 +507,7 @@ impl Layout {
             ..NetBox::default()
         };
         for &p in &pins[1..] {
-            let (x, y) = (self.pin_x[p as usize], self.pin_y[p as usize]);
+            let [x, y] = self.pin_xy[p as usize];
             b.xmin = b.xmin.min(x);
             b.xmax = b.xmax.max(x);
             b.ymin = b.ymin.min(y);
@@ -482,7 +517,7 @@ impl Layout {
     }
 
     /// The box of a net from its pins' current positions, with edge counts.
-    fn scan_box(&self, net: usize) -> NetBox {
+    fn scan_box_raw(&self, net: usize) -> NetBox {
         let pins = self.net_pins(net);
         if pins.is_empty() {
             return NetBox::default();
@@ -495,7 +530,7 @@ impl Layout {
             ..NetBox::default()
         };
         for &p in pins {
-            let (x, y) = (self.pin_x[p as usize], self.pin_y[p as usize]);
+            let [x, y] = self.pin_xy[p as usize];
             if x < b.xmin {
                 b.xmin = x;
                 b.nxmin = 1;
@@ -598,7 +633,7 @@ impl Layout {
         // Wirelength: move the pins, then update each touched net's box once.
         self.net_gen = self.net_gen.wrapping_add(1);
         if self.net_gen == 0 {
-            self.net_stamp.fill(0);
+            self.net_meta.iter_mut().for_each(|m| m.stamp = 0);
             self.net_gen = 1;
         }
         for m in moves {
@@ -607,47 +642,47 @@ impl Layout {
             for p in self.pins_of(i) {
                 let o = self.pin_off[p][q];
                 let (nx, ny) = (m.at.x + o.x, m.at.y + o.y);
-                let (ox, oy) = (self.pin_x[p], self.pin_y[p]);
+                let [ox, oy] = self.pin_xy[p];
                 if nx == ox && ny == oy {
                     continue;
                 }
                 self.undo_pins.push((p as u32, ox, oy));
-                self.pin_x[p] = nx;
-                self.pin_y[p] = ny;
+                self.pin_xy[p] = [nx, ny];
                 let net = self.pin_net[p] as usize;
-                if self.net_stamp[net] != self.net_gen {
-                    self.net_stamp[net] = self.net_gen;
-                    self.undo_nets
-                        .push((net as u32, self.bbox[net], self.net_len[net]));
-                    self.net_dirty[net] = self.net_start_len(net) <= LARGE_NET;
+                let meta = &mut self.net_meta[net];
+                if meta.stamp != self.net_gen {
+                    meta.stamp = self.net_gen;
+                    meta.dirty = meta.count as usize <= LARGE_NET;
+                    self.undo_nets.push((net as u32, self.bbox[net]));
                 }
-                if !self.net_dirty[net] {
+                if !meta.dirty {
                     let b = &mut self.bbox[net];
                     let ok_x =
                         update_axis(&mut b.xmin, &mut b.xmax, &mut b.nxmin, &mut b.nxmax, ox, nx);
                     let ok_y =
                         update_axis(&mut b.ymin, &mut b.ymax, &mut b.nymin, &mut b.nymax, oy, ny);
                     if !(ok_x && ok_y) {
-                        self.net_dirty[net] = true;
+                        meta.dirty = true;
                     }
                 }
             }
         }
         for k in 0..self.undo_nets.len() {
-            let (net, _, old_len) = self.undo_nets[k];
+            let (net, old) = self.undo_nets[k];
             let net = net as usize;
-            if self.net_dirty[net] {
-                let pins = self.net_start_len(net);
-                self.bbox[net] = if pins <= LARGE_NET {
+            if self.net_meta[net].dirty {
+                self.bbox[net] = if self.net_start_len(net) <= LARGE_NET {
                     self.scan_small(net)
                 } else {
                     self.scan_box(net)
                 };
-                self.net_dirty[net] = false;
+                self.net_meta[net].dirty = false;
+            } else {
+                let b = &mut self.bbox[net];
+                b.len = b.hpwl();
             }
-            let len = self.bbox[net].hpwl();
-            self.net_len[net] = len;
-            d.wirelength += self.net_weight[net] * (len - old_len);
+            let b = &self.bbox[net];
+            d.wirelength += b.weight * (b.len - old.len);
         }
         self.pending_delta = d;
         d
@@ -677,12 +712,10 @@ impl Layout {
     /// Undoes the move last evaluated.
     pub fn revert(&mut self) {
         for &(p, x, y) in self.undo_pins.iter().rev() {
-            self.pin_x[p as usize] = x;
-            self.pin_y[p as usize] = y;
+            self.pin_xy[p as usize] = [x, y];
         }
-        for &(net, b, len) in self.undo_nets.iter().rev() {
+        for &(net, b) in self.undo_nets.iter().rev() {
             self.bbox[net as usize] = b;
-            self.net_len[net as usize] = len;
         }
         self.pending_n = 0;
         self.undo_pins.clear();
@@ -715,7 +748,7 @@ impl Layout {
             grown.push(self.grown_off[i][q].translate(self.pos[i]));
         }
         // Wirelength from scratch: pin positions, then each net's box.
-        let nn = self.net_weight.len();
+        let nn = self.bbox.len();
         let mut boxes = vec![
             (
                 f64::INFINITY,
@@ -739,7 +772,7 @@ impl Layout {
         }
         for (k, b) in boxes.iter().enumerate() {
             if b.0.is_finite() {
-                t.wirelength += self.net_weight[k] * ((b.1 - b.0) + (b.3 - b.2));
+                t.wirelength += self.bbox[k].weight * ((b.1 - b.0) + (b.3 - b.2));
             }
         }
         // Overlap by sweep.
@@ -794,7 +827,7 @@ impl Layout {
 
     /// Raw HPWL of every net in mm (net weights ignored).
     pub fn wirelength_mm(&self) -> f64 {
-        self.net_len.iter().sum()
+        self.bbox.iter().map(|b| b.len).sum()
     }
 
     /// Number of connected pins of a part.
@@ -870,8 +903,8 @@ impl Layout {
             }
             for &q in self.net_pins(net) {
                 if self.pin_part[q as usize] != part {
-                    sx += self.pin_x[q as usize];
-                    sy += self.pin_y[q as usize];
+                    sx += self.pin_xy[q as usize][0];
+                    sy += self.pin_xy[q as usize][1];
                     k += 1;
                 }
             }
