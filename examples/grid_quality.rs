@@ -1,5 +1,5 @@
 //! Grid-instance quality for schedule tuning:
-//! `cargo run --release --example grid_quality -- N EFFORT SCHEDULE [PARAM] [MAX_MOVES] [SEEDS]`
+//! `cargo run --release --example grid_quality -- N EFFORT SCHEDULE [PARAM] [MAX_MOVES] [SEEDS] [BLOCK]`
 //! prints achieved/optimal wirelength, seconds and moves for each seed.
 use lehr::model::resolve;
 use lehr::place::{self, AnnealOptions, Schedule, generate};
@@ -19,6 +19,10 @@ fn main() {
     }
     let budget: Option<u64> = a.get(5).and_then(|x| x.parse().ok()).filter(|&m| m > 0);
     let seeds: u64 = a.get(6).and_then(|x| x.parse().ok()).unwrap_or(4);
+    let block: f64 = a
+        .get(7)
+        .and_then(|x| x.parse().ok())
+        .unwrap_or(AnnealOptions::default().block_fraction);
     let d = resolve(generate::grid_board(n, 2.54, 11)).expect("valid board");
     let opt = generate::grid_optimum(n, 2.54);
     for seed in 1..=seeds {
@@ -27,6 +31,7 @@ fn main() {
             seed,
             schedule: sched,
             max_moves: budget,
+            block_fraction: block,
             ..Default::default()
         };
         let p = place::place(&d, &o, |_| true).expect("placement runs");

@@ -117,6 +117,12 @@ impl SpatialHash {
     /// bin), so no de-duplication table is needed.
     #[inline]
     pub fn overlap_sum(&self, r: &Rect, mask: u8, exclude: [u32; 2]) -> f64 {
+        self.overlap_sum_with(r, mask, |id| id == exclude[0] || id == exclude[1])
+    }
+
+    /// [`Self::overlap_sum`] skipping every id for which `skip` is true.
+    #[inline]
+    pub fn overlap_sum_with(&self, r: &Rect, mask: u8, skip: impl Fn(u32) -> bool) -> f64 {
         let (x0, x1, y0, y1) = self.span(r);
         let single = x0 == x1 && y0 == y1;
         let mut sum = 0.0;
@@ -124,7 +130,7 @@ impl SpatialHash {
             let row = y * self.nx;
             for x in x0..=x1 {
                 for e in &self.bins[row + x] {
-                    if e.mask & mask == 0 || e.id == exclude[0] || e.id == exclude[1] {
+                    if e.mask & mask == 0 || skip(e.id) {
                         continue;
                     }
                     let lx = if e.rect.min.x > r.min.x {

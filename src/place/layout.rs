@@ -263,8 +263,9 @@ pub struct Layout {
     net_gen: u32,
     undo_pins: Vec<(u32, f64, f64)>,
     undo_nets: Vec<(u32, NetBox)>,
-    pending: [PartMove; 2],
-    pending_n: usize,
+    pending: Vec<PartMove>,
+    /// Parts of the move being evaluated (for moves of more than two parts).
+    moving: Vec<bool>,
     pending_delta: Terms,
 }
 
@@ -326,12 +327,8 @@ impl Layout {
             net_gen: 0,
             undo_pins: Vec::new(),
             undo_nets: Vec::new(),
-            pending: [PartMove {
-                part: 0,
-                at: Point::default(),
-                quarter: Quarter::R0,
-            }; 2],
-            pending_n: 0,
+            pending: Vec::new(),
+            moving: vec![false; n],
             pending_delta: Terms::default(),
         };
 
@@ -590,43 +587,59 @@ impl Layout {
         self.hash.overlap_sum(r, mask, exclude)
     }
 
-    /// Evaluates moving one or two parts, applying the change to pins and net boxes
+    /// Evaluates moving one or more parts, applying the change to pins and net boxes
     /// tentatively. Returns the change of each term. Must be followed by [`Self::commit`]
     /// or [`Self::revert`] before the next call.
     pub fn evaluate(&mut self, moves: &[PartMove]) -> Terms {
         debug_assert!(self.undo_pins.is_empty() && self.undo_nets.is_empty());
-        debug_assert!(!moves.is_empty() && moves.len() <= 2);
-        let mut ids = [u32::MAX; 2];
-        for (k, m) in moves.iter().enumerate() {
-            ids[k] = m.part;
-            self.pending[k] = *m;
-        }
-        self.pending_n = moves.len();
+        debug_assert!(!moves.is_empty());
+        self.pending.clear();
+        self.pending.extend_from_slice(moves);
         let mut d = Terms::default();
 
-        // Area terms: each moved part against the parts that stay, then the moved pair.
-        let mut new_grown = [Rect::default(); 2];
-        for (k, m) in moves.iter().enumerate() {
-            let i = m.part as usize;
-            let q = m.quarter.index();
-            let mask = self.mask[i];
-            let old_g = self.grown[i];
-            let new_g = self.grown_off[i][q].translate(m.at);
-            new_grown[k] = new_g;
-            let old_c = self.court[i];
-            let new_c = self.court_off[i][q].translate(m.at);
-            d.overlap +=
-                self.overlap_near(&new_g, mask, ids) - self.overlap_near(&old_g, mask, ids);
-            d.outside += self.outside_of(&new_c) - self.outside_of(&old_c);
-            if !self.keepouts.is_empty() {
-                d.keepout += self.keepout_of(&new_c, mask) - self.keepout_of(&old_c, mask);
+        // Area terms: each moved part against the parts that stay, then the moved parts
+        // among themselves.
+        if moves.len() <= 2 {
+            let mut ids = [u32::MAX; 2];
+            for (k, m) in moves.iter().enumerate() {
+                ids[k] = m.part;
             }
-        }
-        if moves.len() == 2 {
-            let (a, b) = (moves[0].part as usize, moves[1].part as usize);
-            if self.mask[a] & self.mask[b] != 0 {
-                d.overlap += new_grown[0].overlap_area(&new_grown[1])
-                    - self.grown[a].overlap_area(&self.grown[b]);
+            let mut new_grown = [Rect::default(); 2];
+            for (k, m) in moves.iter().enumerate() {
+                new_grown[k] = self.area_delta(m, &mut d, |h, r, mask| h.overlap_sum(r, mask, ids));
+            }
+            if moves.len() == 2 {
+                let (a, b) = (moves[0].part as usize, moves[1].part as usize);
+                if self.mask[a] & self.mask[b] != 0 {
+                    d.overlap += new_grown[0].overlap_area(&new_grown[1])
+                        - self.grown[a].overlap_area(&self.grown[b]);
+                }
+            }
+        } else {
+            for m in moves {
+                self.moving[m.part as usize] = true;
+            }
+            let moving = std::mem::take(&mut self.moving);
+            for m in moves {
+                self.area_delta(m, &mut d, |h, r, mask| {
+                    h.overlap_sum_with(r, mask, |id| moving[id as usize])
+                });
+            }
+            self.moving = moving;
+            for (k, a) in moves.iter().enumerate() {
+                let (ia, qa) = (a.part as usize, a.quarter.index());
+                let new_a = self.grown_off[ia][qa].translate(a.at);
+                for b in &moves[k + 1..] {
+                    let ib = b.part as usize;
+                    if self.mask[ia] & self.mask[ib] != 0 {
+                        let new_b = self.grown_off[ib][b.quarter.index()].translate(b.at);
+                        d.overlap += new_a.overlap_area(&new_b)
+                            - self.grown[ia].overlap_area(&self.grown[ib]);
+                    }
+                }
+            }
+            for m in moves {
+                self.moving[m.part as usize] = false;
             }
         }
 
@@ -688,9 +701,33 @@ impl Layout {
         d
     }
 
+    /// Adds one moved part's change of overlap (against the parts `overlap` does not
+    /// skip), outside and keep-out area to `d`; returns its new grown courtyard.
+    #[inline]
+    fn area_delta(
+        &self,
+        m: &PartMove,
+        d: &mut Terms,
+        overlap: impl Fn(&SpatialHash, &Rect, u8) -> f64,
+    ) -> Rect {
+        let i = m.part as usize;
+        let q = m.quarter.index();
+        let mask = self.mask[i];
+        let old_g = self.grown[i];
+        let new_g = self.grown_off[i][q].translate(m.at);
+        let old_c = self.court[i];
+        let new_c = self.court_off[i][q].translate(m.at);
+        d.overlap += overlap(&self.hash, &new_g, mask) - overlap(&self.hash, &old_g, mask);
+        d.outside += self.outside_of(&new_c) - self.outside_of(&old_c);
+        if !self.keepouts.is_empty() {
+            d.keepout += self.keepout_of(&new_c, mask) - self.keepout_of(&old_c, mask);
+        }
+        new_g
+    }
+
     /// Keeps the move last evaluated.
     pub fn commit(&mut self) {
-        for k in 0..self.pending_n {
+        for k in 0..self.pending.len() {
             let m = self.pending[k];
             let i = m.part as usize;
             let q = m.quarter.index();
@@ -704,7 +741,7 @@ impl Layout {
         }
         let d = self.pending_delta;
         self.terms.add(&d);
-        self.pending_n = 0;
+        self.pending.clear();
         self.undo_pins.clear();
         self.undo_nets.clear();
     }
@@ -717,7 +754,7 @@ impl Layout {
         for &(net, b) in self.undo_nets.iter().rev() {
             self.bbox[net as usize] = b;
         }
-        self.pending_n = 0;
+        self.pending.clear();
         self.undo_pins.clear();
         self.undo_nets.clear();
     }
@@ -889,6 +926,30 @@ impl Layout {
     /// Courtyard of a part if it stood at `at` turned by `q`.
     pub fn courtyard_at(&self, part: u32, at: Point, q: Quarter) -> Rect {
         self.court_off[part as usize][q.index()].translate(at)
+    }
+
+    /// Appends the parts whose origin lies in the grid cells `x0..=x1` by `y0..=y1` (cell
+    /// = origin / grid, rounded) to `out`, sorted and without repeats.
+    pub fn parts_in_cells(&self, x0: i64, x1: i64, y0: i64, y1: i64, out: &mut Vec<u32>) {
+        let g = self.grid;
+        let r = Rect::new(
+            (x0 as f64 - 0.5) * g,
+            (y0 as f64 - 0.5) * g,
+            (x1 as f64 + 0.5) * g,
+            (y1 as f64 + 0.5) * g,
+        );
+        let start = out.len();
+        self.hash.for_each_near(&r, |e| {
+            let p = self.pos[e.id as usize];
+            let (cx, cy) = ((p.x / g).round() as i64, (p.y / g).round() as i64);
+            if (x0..=x1).contains(&cx) && (y0..=y1).contains(&cy) {
+                out.push(e.id);
+            }
+        });
+        out[start..].sort_unstable();
+        let mut tail = out.split_off(start);
+        tail.dedup();
+        out.extend(tail);
     }
 
     /// Mean position of the pins that share a net with `part` (nets of more than
