@@ -82,6 +82,9 @@ struct OpenArgs {
     /// With --measure: run the engine without a window, for comparison.
     #[arg(long, hide = true, requires = "measure")]
     headless: bool,
+    /// Shortest time between pictures while running, ms (default 33).
+    #[arg(long, hide = true)]
+    repaint_ms: Option<u64>,
 }
 
 #[derive(Subcommand, Debug)]
@@ -141,7 +144,10 @@ pub fn run() -> Result<ExitCode> {
                 (Some(secs), true) => crate::app::measure_headless(a.board.as_deref(), secs)?,
                 (measure, _) => crate::app::run_window(
                     a.board.as_deref(),
-                    &crate::app::OpenOptions { measure },
+                    &crate::app::OpenOptions {
+                        measure,
+                        repaint_ms: a.repaint_ms,
+                    },
                 )?,
             }
             Ok(ExitCode::SUCCESS)

@@ -289,7 +289,9 @@ impl Controls {
 }
 
 /// The status line: temperature, acceptance, speed, wirelength, conflicts.
-pub fn status_ui(ui: &mut egui::Ui, snap: Option<&Snapshot>, frame_ms: Option<f64>) {
+/// `frame_ms` is the time of the app's own frame code and, with a real window, of the
+/// whole frame.
+pub fn status_ui(ui: &mut egui::Ui, snap: Option<&Snapshot>, frame_ms: (Option<f64>, Option<f64>)) {
     ui.horizontal_wrapped(|ui| {
         let Some(s) = snap else {
             ui.label("starting the engine");
@@ -320,9 +322,15 @@ pub fn status_ui(ui: &mut egui::Ui, snap: Option<&Snapshot>, frame_ms: Option<f6
         ui.label(format!("parts in conflict {conflicts}"));
         ui.separator();
         ui.label(format!("window {:.2} mm", s.window));
-        if let Some(ms) = frame_ms {
+        if let Some(ms) = frame_ms.0 {
             ui.separator();
-            ui.label(format!("frame {ms:.1} ms"));
+            ui.label(format!("ui {ms:.1} ms"))
+                .on_hover_text("Median time of lehr's own frame code (drawing the board and plots, handling input)");
+        }
+        if let Some(ms) = frame_ms.1 {
+            ui.separator();
+            ui.label(format!("frame {ms:.1} ms"))
+                .on_hover_text("Median CPU time of a whole frame, including tessellation and rendering");
         }
     });
 }

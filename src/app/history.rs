@@ -6,6 +6,9 @@ use lehr::engine::PlotPoint;
 /// At most this many samples are kept.
 pub const CAPACITY: usize = 4096;
 
+/// At most about this many points are drawn per curve.
+pub const SHOWN: usize = 800;
+
 /// Plot samples of one run, thinned as the run grows so memory stays bounded. Samples are
 /// kept at a stride that doubles each time the store fills: the curves keep their shape,
 /// the first and the latest sample are always kept.
@@ -71,9 +74,23 @@ impl History {
         self.points.is_empty()
     }
 
-    /// `[moves, f(sample)]` pairs for a plot line.
+    /// `[moves, f(sample)]` pairs for a plot line: at most about [`SHOWN`] of them (a
+    /// plot is a few hundred pixels wide), the newest always included.
     pub fn series(&self, f: impl Fn(&PlotPoint) -> f64) -> Vec<[f64; 2]> {
-        self.iter().map(|p| [p.moves as f64, f(p)]).collect()
+        let n = self.points.len();
+        let step = n.div_ceil(SHOWN).max(1);
+        let mut out: Vec<[f64; 2]> = self
+            .points
+            .iter()
+            .step_by(step)
+            .map(|p| [p.moves as f64, f(p)])
+            .collect();
+        if let Some(l) = self.iter().last()
+            && out.last().is_none_or(|o| o[0] != l.moves as f64)
+        {
+            out.push([l.moves as f64, f(l)]);
+        }
+        out
     }
 }
 
@@ -111,6 +128,12 @@ mod tests {
         }
         assert_eq!(h.len(), 100);
         assert_eq!(h.series(|p| p.energy)[41], [42.0, 42.0]);
+        for m in 101..=3000 {
+            h.push(sample(m));
+        }
+        let s = h.series(|p| p.energy);
+        assert!(s.len() <= SHOWN + 1, "{}", s.len());
+        assert_eq!(s.last().unwrap()[0], 3000.0);
         h.clear();
         assert!(h.is_empty());
     }

@@ -132,6 +132,9 @@ pub struct FrameTimes {
     recent: std::collections::VecDeque<f64>,
     pub all: Vec<f64>,
     pub keep_all: bool,
+    /// Whole-frame CPU time as eframe measures it (layout, tessellation and the calls to
+    /// the renderer), the last 60 frames; empty without a real window.
+    whole: std::collections::VecDeque<f64>,
 }
 
 impl FrameTimes {
@@ -148,6 +151,26 @@ impl FrameTimes {
     /// Median of the recent frames.
     pub fn median(&self) -> Option<f64> {
         median(self.recent.iter().copied().collect())
+    }
+
+    fn push_whole(&mut self, ms: f64) {
+        if self.whole.len() == 60 {
+            self.whole.pop_front();
+        }
+        self.whole.push_back(ms);
+    }
+
+    /// Median whole-frame time of the recent frames.
+    pub fn whole_median(&self) -> Option<f64> {
+        median(self.whole.iter().copied().collect())
+    }
+
+    /// How long to wait between pictures while the engine runs: about 30 a second, less
+    /// often when a frame costs more than a sixth of that, so the window never takes
+    /// more than about a sixth of a core from the worker.
+    pub fn repaint_interval(&self, min: Duration) -> Duration {
+        let cost = self.whole_median().or(self.median()).unwrap_or(0.0);
+        min.max(Duration::from_secs_f64((6.0 * cost / 1e3).min(0.25)))
     }
 }
 
@@ -188,6 +211,8 @@ pub struct LehrApp {
     quit_ok: bool,
     /// Applying an action the user agreed may discard unsaved changes.
     discarding: bool,
+    /// Shortest time between pictures while the engine runs.
+    pub repaint: Duration,
 }
 
 impl LehrApp {
@@ -226,6 +251,7 @@ impl LehrApp {
             frames: FrameTimes::default(),
             quit_ok: false,
             discarding: false,
+            repaint: REPAINT,
         };
         app.rebuild_geometry();
         app
@@ -913,7 +939,7 @@ impl LehrApp {
                 });
             });
         }
-        let frame_ms = self.frames.median();
+        let frame_ms = (self.frames.median(), self.frames.whole_median());
         egui::Panel::bottom("status").show(ui, |ui| {
             controls::status_ui(ui, self.snap.as_deref(), frame_ms);
         });
@@ -996,7 +1022,7 @@ impl LehrApp {
             || Instant::now() < self.expect_until
             || self.canvas.dragging().is_some()
         {
-            ctx.request_repaint_after(REPAINT);
+            ctx.request_repaint_after(self.frames.repaint_interval(self.repaint));
         }
         self.frames.push(t0.elapsed().as_secs_f64() * 1e3);
     }
@@ -1026,10 +1052,12 @@ struct Window {
 
 impl eframe::App for Window {
     fn ui(&mut self, ui: &mut egui::Ui, frame: &mut eframe::Frame) {
-        if let Some(cpu) = frame.info().cpu_usage
-            && self.measure.is_some()
-        {
-            self.cpu_ms.push(f64::from(cpu) * 1e3);
+        if let Some(cpu) = frame.info().cpu_usage {
+            let ms = f64::from(cpu) * 1e3;
+            self.app.frames.push_whole(ms);
+            if self.measure.is_some() {
+                self.cpu_ms.push(ms);
+            }
         }
         self.app.show(ui);
         if let Some(m) = &mut self.measure {
@@ -1039,7 +1067,8 @@ impl eframe::App for Window {
                 self.app.frames.keep_all = true;
                 self.app.push(Action::Run);
             }
-            ui.ctx().request_repaint_after(REPAINT);
+            ui.ctx()
+                .request_repaint_after(self.app.frames.repaint_interval(self.app.repaint));
             if m.start.elapsed().as_secs_f64() >= m.seconds {
                 let s = self.app.snapshot();
                 let report = serde_json::json!({
@@ -1053,6 +1082,8 @@ impl eframe::App for Window {
                     "moves": s.map(|s| s.moves),
                     "moves_per_second": s.map(|s| s.moves_per_second),
                     "mean_moves_per_second": s.map(|s| s.moves as f64 / m.start.elapsed().as_secs_f64()),
+                    "done": s.map(|s| s.done),
+                    "repaint_min_ms": self.app.repaint.as_secs_f64() * 1e3,
                 });
                 println!("{report}");
                 self.app.quit_ok = true;
@@ -1102,6 +1133,8 @@ fn display_available() -> bool {
 pub struct OpenOptions {
     /// Press run, measure for this many seconds, print a JSON line, close.
     pub measure: Option<f64>,
+    /// Shortest time between pictures while running, ms (default 33).
+    pub repaint_ms: Option<u64>,
 }
 
 /// Opens the window on `board` (the built-in sample when `None`) and runs until it closes.
@@ -1131,6 +1164,7 @@ pub fn run_window(board: Option<&Path>, o: &OpenOptions) -> Result<()> {
         ..Default::default()
     };
     let measure = o.measure;
+    let repaint_ms = o.repaint_ms;
     eframe::run_native(
         "lehr",
         native,
@@ -1140,7 +1174,7 @@ pub fn run_window(board: Option<&Path>, o: &OpenOptions) -> Result<()> {
                 .and_then(|s| eframe::get_value(s, eframe::APP_KEY))
                 .unwrap_or_default();
             if measure.is_some() {
-                settings.controls.speed = 200_000;
+                settings.controls.speed = 20_000;
             }
             apply_theme(&cc.egui_ctx, settings.theme);
             let app = match loaded {
@@ -1157,6 +1191,10 @@ pub fn run_window(board: Option<&Path>, o: &OpenOptions) -> Result<()> {
                 }
                 None => LehrApp::sample(settings)?,
             };
+            let mut app = app;
+            if let Some(ms) = repaint_ms {
+                app.repaint = Duration::from_millis(ms);
+            }
             Ok(Box::new(Window {
                 app,
                 measure: measure.map(|seconds| Measure {
@@ -1179,7 +1217,7 @@ pub fn measure_headless(board: Option<&Path>, seconds: f64) -> Result<()> {
     };
     let parts = design.board.parts.len();
     let h = EngineHandle::spawn(design, ControlSettings::default().options(None));
-    h.send(Command::SetMovesPerTick(200_000));
+    h.send(Command::SetMovesPerTick(20_000));
     h.send(Command::Run);
     let start = Instant::now();
     let mut last: Option<Arc<Snapshot>> = None;
@@ -1194,6 +1232,7 @@ pub fn measure_headless(board: Option<&Path>, seconds: f64) -> Result<()> {
         "moves": last.as_ref().map(|s| s.moves),
         "moves_per_second": last.as_ref().map(|s| s.moves_per_second),
         "mean_moves_per_second": last.as_ref().map(|s| s.moves as f64 / start.elapsed().as_secs_f64()),
+        "done": last.as_ref().map(|s| s.done),
     });
     println!("{report}");
     Ok(())

@@ -378,13 +378,17 @@ pub fn draw(
                 pal.courtyard_fill
             },
         );
-        pen.stroke_rect(&p.body, 1.0, pal.body);
+        // Zoomed far out, pads and bodies would be specks: skip them (fewer triangles).
+        let detail = p.court.width().min(p.court.height()) * pen.scale() >= 8.0;
+        if detail {
+            pen.stroke_rect(&p.body, 1.0, pal.body);
+        }
         let pad_c = if p.side == Side::Top {
             pal.pad_top
         } else {
             pal.pad_bottom
         };
-        for pad in &p.pads {
+        for pad in p.pads.iter().filter(|_| detail) {
             let c = if m.net.is_some() && pad.net == m.net {
                 pal.highlight
             } else {
