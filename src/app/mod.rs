@@ -165,12 +165,12 @@ impl FrameTimes {
         median(self.whole.iter().copied().collect())
     }
 
-    /// How long to wait between pictures while the engine runs: about 30 a second, less
-    /// often when a frame costs more than a sixth of that, so the window never takes
-    /// more than about a sixth of a core from the worker.
+    /// How long to wait between pictures while the engine runs: `min` (about 30 a
+    /// second with a GPU), or longer when a frame costs more than an eighth of that, so
+    /// the window takes at most about an eighth of a core from the worker.
     pub fn repaint_interval(&self, min: Duration) -> Duration {
         let cost = self.whole_median().or(self.median()).unwrap_or(0.0);
-        min.max(Duration::from_secs_f64((6.0 * cost / 1e3).min(0.25)))
+        min.max(Duration::from_secs_f64((8.0 * cost / 1e3).min(0.3)))
     }
 }
 
@@ -213,6 +213,8 @@ pub struct LehrApp {
     discarding: bool,
     /// Shortest time between pictures while the engine runs.
     pub repaint: Duration,
+    /// `repaint` was given on the command line: keep it.
+    pub repaint_fixed: bool,
 }
 
 impl LehrApp {
@@ -252,6 +254,7 @@ impl LehrApp {
             quit_ok: false,
             discarding: false,
             repaint: REPAINT,
+            repaint_fixed: false,
         };
         app.rebuild_geometry();
         app
@@ -1036,7 +1039,8 @@ fn apply_theme(ctx: &egui::Context, t: ThemeChoice) {
     });
 }
 
-/// `--measure`: press run at start, report frame times and engine speed after a while.
+/// `--measure`: press run at start, report frame times and engine speed when the run is
+/// frozen or after a while, whichever comes first.
 struct Measure {
     seconds: f64,
     start: Instant,
@@ -1048,10 +1052,35 @@ struct Window {
     app: LehrApp,
     measure: Option<Measure>,
     cpu_ms: Vec<f64>,
+    renderer_checked: bool,
+}
+
+/// Shortest time between pictures when OpenGL is drawn by the CPU (Mesa's llvmpipe or
+/// softpipe, as on machines without a GPU): rasterising takes CPU time from the worker.
+const SOFTWARE_REPAINT: Duration = Duration::from_millis(100);
+
+/// The OpenGL renderer's name, if the window draws with OpenGL.
+fn gl_renderer(frame: &eframe::Frame) -> Option<String> {
+    use eframe::glow::HasContext as _;
+    let gl = frame.gl()?;
+    // SAFETY: a plain query of a string constant on the current context.
+    Some(unsafe { gl.get_parameter_string(eframe::glow::RENDERER) })
 }
 
 impl eframe::App for Window {
     fn ui(&mut self, ui: &mut egui::Ui, frame: &mut eframe::Frame) {
+        if !self.renderer_checked {
+            self.renderer_checked = true;
+            if let Some(r) = gl_renderer(frame) {
+                let r = r.to_lowercase();
+                if (r.contains("llvmpipe") || r.contains("softpipe") || r.contains("software"))
+                    && self.app.repaint < SOFTWARE_REPAINT
+                    && !self.app.repaint_fixed
+                {
+                    self.app.repaint = SOFTWARE_REPAINT;
+                }
+            }
+        }
         if let Some(cpu) = frame.info().cpu_usage {
             let ms = f64::from(cpu) * 1e3;
             self.app.frames.push_whole(ms);
@@ -1069,7 +1098,8 @@ impl eframe::App for Window {
             }
             ui.ctx()
                 .request_repaint_after(self.app.frames.repaint_interval(self.app.repaint));
-            if m.start.elapsed().as_secs_f64() >= m.seconds {
+            let done = self.app.snapshot().is_some_and(|s| s.done && s.moves > 0);
+            if done || m.start.elapsed().as_secs_f64() >= m.seconds {
                 let s = self.app.snapshot();
                 let report = serde_json::json!({
                     "parts": self.app.design().board.parts.len(),
@@ -1139,16 +1169,16 @@ pub struct OpenOptions {
 
 /// Opens the window on `board` (the built-in sample when `None`) and runs until it closes.
 pub fn run_window(board: Option<&Path>, o: &OpenOptions) -> Result<()> {
-    if !display_available() {
-        return Err(anyhow!(
-            "no display to open the window on (neither DISPLAY nor WAYLAND_DISPLAY is set); use `lehr place` on the command line, or see `lehr --help`"
-        ));
-    }
     // Read the board first so a bad file is reported in the terminal too.
     let loaded = match board {
         Some(p) => Some((lehr::io::load_board(p)?, p.to_path_buf())),
         None => None,
     };
+    if !display_available() {
+        return Err(anyhow!(
+            "no display to open the window on (neither DISPLAY nor WAYLAND_DISPLAY is set); use `lehr place` on the command line, or see `lehr --help`"
+        ));
+    }
     let mut viewport = egui::ViewportBuilder::default()
         .with_title("lehr")
         .with_app_id("lehr")
@@ -1194,6 +1224,7 @@ pub fn run_window(board: Option<&Path>, o: &OpenOptions) -> Result<()> {
             let mut app = app;
             if let Some(ms) = repaint_ms {
                 app.repaint = Duration::from_millis(ms);
+                app.repaint_fixed = true;
             }
             Ok(Box::new(Window {
                 app,
@@ -1203,13 +1234,15 @@ pub fn run_window(board: Option<&Path>, o: &OpenOptions) -> Result<()> {
                     started: false,
                 }),
                 cpu_ms: Vec::new(),
+                renderer_checked: false,
             }))
         }),
     )
     .map_err(|e| anyhow!("cannot open the window: {e}"))
 }
 
-/// `--measure --headless`: the engine alone on the board for `seconds`, full speed.
+/// `--measure --headless`: the engine alone on the board, full speed, until the run is
+/// frozen or `seconds` have passed.
 pub fn measure_headless(board: Option<&Path>, seconds: f64) -> Result<()> {
     let design = match board {
         Some(p) => lehr::io::load_board(p)?,
@@ -1221,7 +1254,7 @@ pub fn measure_headless(board: Option<&Path>, seconds: f64) -> Result<()> {
     h.send(Command::Run);
     let start = Instant::now();
     let mut last: Option<Arc<Snapshot>> = None;
-    while start.elapsed().as_secs_f64() < seconds {
+    while start.elapsed().as_secs_f64() < seconds && !last.as_ref().is_some_and(|s| s.done) {
         if let Some(Event::Snapshot(s)) = h.recv_timeout(Duration::from_millis(50)) {
             last = Some(s);
         }
