@@ -29,7 +29,7 @@ const BEST: Color32 = Color32::from_rgb(0x2e, 0xb8, 0x6a);
 const WIRE: Color32 = Color32::from_rgb(0xd8, 0x96, 0x2c);
 const OVERLAP: Color32 = Color32::from_rgb(0xd6, 0x4c, 0x4c);
 const OUTSIDE: Color32 = Color32::from_rgb(0xa8, 0x6c, 0xd8);
-const KEEPOUT: Color32 = Color32::from_rgb(0x9a, 0x8a, 0x5a);
+const KEEPOUT: Color32 = Color32::from_rgb(0x5a, 0x7c, 0xa8);
 const TEMP: Color32 = Color32::from_rgb(0xe0, 0x6c, 0x2c);
 const ACCEPT: Color32 = Color32::from_rgb(0x4a, 0xae, 0xb0);
 
