@@ -1,6 +1,6 @@
 //! The board as a PNG picture, drawn with tiny-skia by the same drawing code as the canvas
-//! (no window needed). Text is left out: the picture shows outline, parts, pads, copper
-//! and the wiring still to do.
+//! (no window needed). Part references are drawn from the outlines of the monospace font
+//! egui ships (Hack), read with skrifa.
 
 use egui::Color32;
 use tiny_skia::{FillRule, Paint, PathBuilder, Pixmap, Stroke, Transform};
@@ -12,13 +12,15 @@ use super::scene::{self, Geometry, Marks, Palette, Pen, Static};
 /// Largest side of an exported picture, pixels.
 pub const MAX_SIDE: u32 = 4000;
 
-/// Renders the board at `px_per_mm` (reduced if the picture would exceed [`MAX_SIDE`]).
+/// Renders the board at `px_per_mm` (reduced if the picture would exceed [`MAX_SIDE`]),
+/// with part references when `labels`.
 pub fn render(
     design: &Design,
     st: &Static,
     g: &Geometry,
     pal: &Palette,
     px_per_mm: f64,
+    labels: bool,
 ) -> Option<Pixmap> {
     let b = g.bounds.inflate(1.0);
     let scale = px_per_mm
@@ -33,7 +35,10 @@ pub fn render(
         bounds: b,
         scale,
     };
-    let marks = Marks::default();
+    let marks = Marks {
+        labels,
+        ..Marks::default()
+    };
     scene::draw(&mut pen, design, st, g, pal, &marks);
     Some(pixmap)
 }
@@ -45,8 +50,10 @@ pub fn png(
     g: &Geometry,
     pal: &Palette,
     px_per_mm: f64,
+    labels: bool,
 ) -> Result<Vec<u8>, String> {
-    let pixmap = render(design, st, g, pal, px_per_mm).ok_or("the picture would be empty")?;
+    let pixmap =
+        render(design, st, g, pal, px_per_mm, labels).ok_or("the picture would be empty")?;
     pixmap.encode_png().map_err(|e| e.to_string())
 }
 
@@ -169,7 +176,90 @@ impl Pen for SkiaPen<'_> {
         }
     }
 
-    fn text(&mut self, _at: Point, _h: f32, _c: Color32, _s: &str) {}
+    fn text(&mut self, at: Point, h: f32, c: Color32, s: &str) {
+        let (cx, cy) = self.px(at);
+        if let Some(path) = text_path(s, h, cx, cy) {
+            self.pixmap.fill_path(
+                &path,
+                &paint(c),
+                FillRule::Winding,
+                Transform::identity(),
+                None,
+            );
+        }
+    }
+}
+
+/// Glyph outlines into a tiny-skia path, flipping y (fonts grow upward).
+struct GlyphPen {
+    pb: PathBuilder,
+    x: f32,
+    y: f32,
+}
+
+impl skrifa::outline::OutlinePen for GlyphPen {
+    fn move_to(&mut self, x: f32, y: f32) {
+        self.pb.move_to(self.x + x, self.y - y);
+    }
+
+    fn line_to(&mut self, x: f32, y: f32) {
+        self.pb.line_to(self.x + x, self.y - y);
+    }
+
+    fn quad_to(&mut self, cx0: f32, cy0: f32, x: f32, y: f32) {
+        self.pb
+            .quad_to(self.x + cx0, self.y - cy0, self.x + x, self.y - y);
+    }
+
+    fn curve_to(&mut self, cx0: f32, cy0: f32, cx1: f32, cy1: f32, x: f32, y: f32) {
+        self.pb.cubic_to(
+            self.x + cx0,
+            self.y - cy0,
+            self.x + cx1,
+            self.y - cy1,
+            self.x + x,
+            self.y - y,
+        );
+    }
+
+    fn close(&mut self) {
+        self.pb.close();
+    }
+}
+
+/// The outline of `s` set in Hack, `h` pixels tall (the font size), centred on (cx, cy).
+fn text_path(s: &str, h: f32, cx: f32, cy: f32) -> Option<tiny_skia::Path> {
+    use skrifa::MetadataProvider as _;
+    use skrifa::instance::{LocationRef, Size};
+    use skrifa::outline::DrawSettings;
+    let font = skrifa::FontRef::new(epaint_default_fonts::HACK_REGULAR).ok()?;
+    let size = Size::new(h);
+    let metrics = font.glyph_metrics(size, LocationRef::default());
+    let charmap = font.charmap();
+    let outlines = font.outline_glyphs();
+    let glyphs: Vec<_> = s.chars().filter_map(|ch| charmap.map(ch)).collect();
+    let width: f32 = glyphs
+        .iter()
+        .filter_map(|g| metrics.advance_width(*g))
+        .sum();
+    let m = font.metrics(size, LocationRef::default());
+    // Centre the cap height on cy.
+    let cap = m.cap_height.unwrap_or(m.ascent * 0.7);
+    let mut pen = GlyphPen {
+        pb: PathBuilder::new(),
+        x: cx - width / 2.0,
+        y: cy + cap / 2.0,
+    };
+    for g in glyphs {
+        if let Some(glyph) = outlines.get(g) {
+            let _ = glyph.draw(
+                DrawSettings::unhinted(size, LocationRef::default()),
+                &mut pen,
+            );
+        }
+        pen.x += metrics.advance_width(g).unwrap_or(0.0);
+    }
+    pen.pb.finish()
 }
 
 #[cfg(test)]
@@ -184,7 +274,7 @@ mod tests {
         // Unrouted lines run through pad centres; leave them out to see the pad.
         g.unrouted.clear();
         let pal = Palette::light();
-        let bytes = png(&design, &st, &g, &pal, 20.0).unwrap();
+        let bytes = png(&design, &st, &g, &pal, 20.0, false).unwrap();
         let pic = Pixmap::decode_png(&bytes).unwrap();
         let b = g.bounds.inflate(1.0);
         assert_eq!(pic.width(), (b.width() * 20.0).ceil() as u32);
@@ -205,11 +295,23 @@ mod tests {
     }
 
     #[test]
+    fn references_are_written_in_the_picture() {
+        let p = text_path("U12", 20.0, 100.0, 50.0).expect("glyph outlines");
+        let b = p.bounds();
+        // Centred on the point, about three monospace cells wide and a cap height tall.
+        assert!(((b.left() + b.right()) / 2.0 - 100.0).abs() < 1.5);
+        assert!(((b.top() + b.bottom()) / 2.0 - 50.0).abs() < 1.5);
+        assert!(b.width() > 20.0 && b.width() < 40.0, "{b:?}");
+        assert!(b.height() > 10.0 && b.height() < 20.0, "{b:?}");
+        assert!(text_path("", 20.0, 0.0, 0.0).is_none());
+    }
+
+    #[test]
     fn huge_boards_are_scaled_down() {
         let design = lehr::model::resolve(lehr::place::generate::grid_board(3, 2.54, 3)).unwrap();
         let st = Static::new(&design);
         let g = Geometry::build(&design, &st, None, None);
-        let pic = render(&design, &st, &g, &Palette::dark(), 1e6).unwrap();
+        let pic = render(&design, &st, &g, &Palette::dark(), 1e6, true).unwrap();
         assert!(pic.width() <= MAX_SIDE && pic.height() <= MAX_SIDE);
     }
 }

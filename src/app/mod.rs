@@ -477,8 +477,15 @@ impl LehrApp {
         } else {
             Palette::light()
         };
-        let bytes = export::png(&self.doc.design, &self.st, &self.geom, &pal, 40.0)
-            .map_err(|e| anyhow!(e))?;
+        let bytes = export::png(
+            &self.doc.design,
+            &self.st,
+            &self.geom,
+            &pal,
+            40.0,
+            self.canvas.labels,
+        )
+        .map_err(|e| anyhow!(e))?;
         std::fs::write(path, bytes).map_err(|e| anyhow!("cannot write {}: {e}", path.display()))
     }
 
