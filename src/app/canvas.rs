@@ -35,6 +35,8 @@ pub struct Canvas {
     hovered_part: Option<u32>,
     drag: Option<Drag>,
     pub labels: bool,
+    /// The view of the last frame (tests point at parts through it).
+    last_view: Option<View>,
 }
 
 impl Default for Canvas {
@@ -48,6 +50,7 @@ impl Default for Canvas {
             hovered_part: None,
             drag: None,
             labels: true,
+            last_view: None,
         }
     }
 }
@@ -88,6 +91,18 @@ impl Canvas {
             labels: self.labels,
             ..Canvas::default()
         };
+    }
+
+    /// Where a board point was on the screen in the last frame.
+    #[cfg(test)]
+    pub fn screen_from_board(&self, p: Point) -> Option<Pos2> {
+        self.last_view.map(|v| v.screen_from_board(p))
+    }
+
+    /// Pixels per millimetre in the last frame.
+    #[cfg(test)]
+    pub fn scale(&self) -> f64 {
+        self.scale
     }
 
     /// The part being dragged, where it is now and its turn.
@@ -196,6 +211,7 @@ impl Canvas {
             self.fit();
         }
 
+        self.last_view = Some(view);
         // Paint.
         painter.rect_filled(rect, 0.0, pal.background);
         let mut pen = EguiPen {

@@ -381,9 +381,21 @@ impl LehrApp {
         self.geom_stale = false;
     }
 
-    /// Where a part stands now and whether it is locked.
+    /// Where a part stands now (as the engine has it, not where a drag shows it) and
+    /// whether it is locked.
     fn part_state(&self, part: u32) -> Option<PartState> {
-        let g = self.geom.parts.get(part as usize)?;
+        let i = part as usize;
+        if let Some(s) = self.snap.as_deref()
+            && let (Some(at), Some(quarter), Some(locked)) =
+                (s.positions.get(i), s.quarters.get(i), s.locked.get(i))
+        {
+            return Some(PartState {
+                at: *at,
+                quarter: *quarter,
+                locked: *locked,
+            });
+        }
+        let g = self.geom.parts.get(i)?;
         Some(PartState {
             at: g.at,
             quarter: g.quarter,

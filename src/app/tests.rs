@@ -279,3 +279,45 @@ fn saving_writes_the_current_positions() {
     h.state().export_png(&png, true).unwrap();
     assert!(tiny_skia::Pixmap::load_png(&png).is_ok());
 }
+
+#[test]
+fn dragging_a_part_moves_it_and_undo_puts_it_back() {
+    let mut h = harness(grid_app());
+    wait_until(&mut h, "the first snapshot arrives", |a| {
+        a.snapshot().is_some()
+    });
+    h.run_steps(2);
+    let part = 9usize;
+    let at0 = h.state().snapshot().unwrap().positions[part];
+    let centre = h.state().geom.parts[part].court.center();
+    let from = h
+        .state()
+        .canvas
+        .screen_from_board(centre)
+        .expect("the canvas was drawn");
+    let scale = h.state().canvas.scale() as f32;
+    // Three millimetres to the right, in a few pointer moves.
+    let to = from + egui::vec2(3.0 * scale, 0.0);
+    h.hover_at(from);
+    h.step();
+    h.drag_at(from);
+    h.step();
+    for k in 1..=4 {
+        h.hover_at(from + (to - from) * (k as f32 / 4.0));
+        h.step();
+    }
+    h.drop_at(to);
+    h.step();
+    assert_eq!(h.state().canvas.selected, Some(part as u32));
+    wait_until(&mut h, "the part moves", |a| {
+        a.snapshot().unwrap().positions[part] != at0
+    });
+    let at1 = h.state().snapshot().unwrap().positions[part];
+    // Snapped to the placement grid (2.54 mm on this board): one pitch to the right.
+    assert!((at1.x - at0.x - 2.54).abs() < 1e-9, "{at0:?} -> {at1:?}");
+    assert!((at1.y - at0.y).abs() < 1e-9);
+    h.state_mut().push(Action::Undo);
+    wait_until(&mut h, "the move is undone", |a| {
+        a.snapshot().unwrap().positions[part] == at0
+    });
+}
