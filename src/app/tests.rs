@@ -321,3 +321,29 @@ fn dragging_a_part_moves_it_and_undo_puts_it_back() {
         a.snapshot().unwrap().positions[part] == at0
     });
 }
+
+#[test]
+fn finish_reports_in_the_window() {
+    let mut h = harness(grid_app());
+    wait_until(&mut h, "the first snapshot arrives", |a| {
+        a.snapshot().is_some()
+    });
+    h.get_by_label("Finish").click();
+    wait_until(&mut h, "the finish is reported", |a| {
+        a.message_text().is_some_and(|t| t.starts_with("Finished"))
+    });
+    h.step();
+    h.get_by_label_contains("Finished");
+    // The parts stand on the 2.54 mm placement grid afterwards.
+    wait_until(
+        &mut h,
+        "the engine continues from the finished board",
+        |a| {
+            a.snapshot().is_some_and(|s| {
+                s.positions
+                    .iter()
+                    .all(|p| ((p.x / 2.54).round() * 2.54 - p.x).abs() < 1e-6)
+            })
+        },
+    );
+}
