@@ -6,7 +6,7 @@ use std::process::ExitCode;
 use std::time::Duration;
 
 use anyhow::{Result, bail};
-use clap::{Args, CommandFactory, Parser, Subcommand};
+use clap::{Args, Parser, Subcommand};
 use indicatif::{ProgressBar, ProgressStyle};
 use serde_json::json;
 
@@ -23,7 +23,7 @@ pub const SAMPLE_NAME: &str = "led-dimmer.board.ron (built in)";
     version,
     about = "Places and routes small circuit boards by simulated annealing.",
     long_about = "Places and routes small circuit boards by simulated annealing.\n\n\
-        Run without a command to place the built-in sample board."
+        Run without a command to open the window on the built-in sample board."
 )]
 struct Cli {
     #[command(subcommand)]
@@ -32,6 +32,8 @@ struct Cli {
 
 #[derive(Subcommand, Debug)]
 enum Command {
+    /// Open the window on a board (the built-in sample board when none is given).
+    Open(OpenArgs),
     /// Place every unlocked part of a board and write the placed board.
     Place(PlaceArgs),
     /// Write a synthetic board.
@@ -73,6 +75,22 @@ struct PlaceArgs {
     /// Print one JSON object with the results instead of text.
     #[arg(long)]
     json: bool,
+}
+
+#[derive(Args, Debug)]
+struct OpenArgs {
+    /// The board file (RON, see docs/board-format.md).
+    board: Option<PathBuf>,
+    /// Press run, measure the frame time and the engine's speed for this many seconds,
+    /// print one JSON line and close (for docs/performance.md).
+    #[arg(long, hide = true)]
+    measure: Option<f64>,
+    /// With --measure: run the engine without a window, for comparison.
+    #[arg(long, hide = true, requires = "measure")]
+    headless: bool,
+    /// Shortest time between pictures while running, ms (default 33).
+    #[arg(long, hide = true)]
+    repaint_ms: Option<u64>,
 }
 
 #[derive(Subcommand, Debug)]
@@ -124,11 +142,20 @@ pub fn run() -> Result<ExitCode> {
     let cli = Cli::parse();
     match cli.command {
         None => {
-            Cli::command().print_help()?;
-            println!("\nPlacing the built-in sample board {SAMPLE_NAME}:\n");
-            let design = lehr::io::parse_board(SAMPLE_BOARD, SAMPLE_NAME)?;
-            let placed = run_place(&design, &AnnealOptions::default(), false)?;
-            print_report(&placed, None);
+            crate::app::run_window(None, &crate::app::OpenOptions::default())?;
+            Ok(ExitCode::SUCCESS)
+        }
+        Some(Command::Open(a)) => {
+            match (a.measure, a.headless) {
+                (Some(secs), true) => crate::app::measure_headless(a.board.as_deref(), secs)?,
+                (measure, _) => crate::app::run_window(
+                    a.board.as_deref(),
+                    &crate::app::OpenOptions {
+                        measure,
+                        repaint_ms: a.repaint_ms,
+                    },
+                )?,
+            }
             Ok(ExitCode::SUCCESS)
         }
         Some(Command::Place(a)) => place_cmd(a),

@@ -109,7 +109,21 @@ pub struct Snapshot {
     pub wirelength_mm: f64,
     pub schedule: Option<Schedule>,
     pub seed: u64,
+    /// Counts fresh starts (load, reset, new options, descent, finish, recovery from a
+    /// panic): a viewer clears its plots when it changes, so samples of an earlier run
+    /// still in the channel never mix with the new one.
+    pub epoch: u64,
+    /// Per part, the conflicts it is in now: [`CONFLICT_OVERLAP`], [`CONFLICT_OUTSIDE`],
+    /// [`CONFLICT_KEEPOUT`] or'ed together (0 when clear).
+    pub conflicts: Vec<u8>,
 }
+
+/// [`Snapshot::conflicts`] bit: the part's courtyard overlaps another's.
+pub const CONFLICT_OVERLAP: u8 = 1;
+/// [`Snapshot::conflicts`] bit: the part reaches outside the board outline.
+pub const CONFLICT_OUTSIDE: u8 = 2;
+/// [`Snapshot::conflicts`] bit: the part intrudes on a keep-out.
+pub const CONFLICT_KEEPOUT: u8 = 4;
 
 /// What the worker tells the interface.
 #[derive(Debug)]
@@ -192,6 +206,7 @@ struct Worker {
     last_snapshot: Instant,
     rate_window: (Instant, u64),
     moves_per_second: f64,
+    epoch: u64,
 }
 
 impl Worker {
@@ -209,12 +224,14 @@ impl Worker {
             last_snapshot: Instant::now(),
             rate_window: (Instant::now(), 0),
             moves_per_second: 0.0,
+            epoch: 0,
         };
         w.restart();
         w
     }
 
     fn restart(&mut self) {
+        self.epoch += 1;
         self.running = false;
         self.stop_after_stage = None;
         self.samples.clear();
@@ -367,6 +384,9 @@ impl Worker {
                             let mut opts = self.opts.clone();
                             opts.scatter = false;
                             self.an = Annealer::new(&d, opts).ok();
+                            self.epoch += 1;
+                            self.samples.clear();
+                            self.stages_sent = 0;
                             let _ = self.events.send(Event::Finished(Box::new(Finished {
                                 board: p.board,
                                 report: p.report,
@@ -465,10 +485,33 @@ impl Worker {
                     wirelength_mm: l.wirelength_mm(),
                     schedule: Some(a.options().schedule),
                     seed: a.options().seed,
+                    epoch: self.epoch,
+                    conflicts: (0..l.part_count() as u32)
+                        .map(|i| conflict_bits(l.part_violations(i)))
+                        .collect(),
                 }
             }
-            None => Snapshot::default(),
+            None => Snapshot {
+                epoch: self.epoch,
+                ..Snapshot::default()
+            },
         };
         let _ = self.events.send(Event::Snapshot(Arc::new(snap)));
     }
+}
+
+/// [`Snapshot::conflicts`] bits from a part's overlap, outside and keep-out areas.
+fn conflict_bits((overlap, outside, keepout): (f64, f64, f64)) -> u8 {
+    let eps = place::legal::AREA_EPS;
+    let mut bits = 0;
+    if overlap > eps {
+        bits |= CONFLICT_OVERLAP;
+    }
+    if outside > eps {
+        bits |= CONFLICT_OUTSIDE;
+    }
+    if keepout > eps {
+        bits |= CONFLICT_KEEPOUT;
+    }
+    bits
 }

@@ -1,6 +1,7 @@
-//! The `lehr` binary: command-line interface (and, later, the window). Glue only: the
-//! work lives in the library.
+//! The `lehr` binary: the command-line interface and the window. Glue only: the work
+//! lives in the library.
 
+mod app;
 mod bench;
 mod cli;
 mod copper_cmds;

@@ -29,7 +29,7 @@ pub use legal::{Conflict, ConflictKind};
 pub use schedule::Schedule;
 
 use crate::model::board::{Board, PlacementRecord};
-use crate::model::{Design, Point};
+use crate::model::{Design, Point, Quarter};
 
 /// The outcome of a placement run, as `lehr place --json` prints it.
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
@@ -65,12 +65,18 @@ pub struct Placed {
 
 /// Writes the annealer's positions into a copy of the design's board.
 pub fn board_with_positions(design: &Design, layout: &Layout) -> Board {
+    board_at(design, layout.positions(), layout.quarters())
+}
+
+/// A copy of the design's board with the given positions and turns (one per part, as a
+/// viewer holds them from the engine's snapshots). Extra or missing entries leave parts
+/// as they are.
+pub fn board_at(design: &Design, positions: &[Point], quarters: &[Quarter]) -> Board {
     let mut board = design.board.clone();
-    for (i, part) in board.parts.iter_mut().enumerate() {
-        let p = layout.position(i as u32);
+    for ((part, p), q) in board.parts.iter_mut().zip(positions).zip(quarters) {
         // Print-friendly: drop the last-bit noise of grid multiples (k * 0.1 and so on).
         part.at = Some(Point::new(tidy(p.x), tidy(p.y)));
-        part.rotation = layout.quarter(i as u32).degrees();
+        part.rotation = q.degrees();
     }
     board
 }

@@ -97,3 +97,43 @@ fn bad_options_are_reported_not_fatal() {
     h.send(Command::SetOptions(AnnealOptions::default()));
     wait_for(&h, |s| s.positions.len() == 36);
 }
+
+#[test]
+fn reset_starts_a_new_epoch() {
+    let h = EngineHandle::spawn(design(), AnnealOptions::default());
+    let first = wait_for(&h, |_| true);
+    h.send(Command::SetMovesPerTick(500));
+    h.send(Command::Run);
+    wait_for(&h, |s| s.moves > 0);
+    h.send(Command::Reset);
+    // Every snapshot of the new start carries a larger epoch and begins at zero moves.
+    let s = wait_for(&h, |s| s.epoch > first.epoch);
+    assert_eq!(s.moves, 0);
+    assert!(!s.running);
+}
+
+#[test]
+fn conflicts_mark_overlapping_and_outside_parts() {
+    use lehr::engine::{CONFLICT_OUTSIDE, CONFLICT_OVERLAP};
+    use lehr::model::{Point, Quarter};
+    let h = EngineHandle::spawn(design(), AnnealOptions::default());
+    let s0 = wait_for(&h, |_| true);
+    assert_eq!(s0.conflicts.len(), s0.positions.len());
+    // Part 1 on top of part 0: both overlap.
+    h.send(Command::MovePart {
+        part: 1,
+        at: s0.positions[0],
+        quarter: s0.quarters[0],
+    });
+    let s = wait_for(&h, |s| s.positions[1] == s0.positions[0]);
+    assert_ne!(s.conflicts[0] & CONFLICT_OVERLAP, 0);
+    assert_ne!(s.conflicts[1] & CONFLICT_OVERLAP, 0);
+    // Part 2 far off the board: outside, and overlapping nothing.
+    h.send(Command::MovePart {
+        part: 2,
+        at: Point::new(-1000.0, -1000.0),
+        quarter: Quarter::R0,
+    });
+    let s = wait_for(&h, |s| s.positions[2].x == -1000.0);
+    assert_eq!(s.conflicts[2], CONFLICT_OUTSIDE);
+}

@@ -1,0 +1,386 @@
+//! The controls panel: run, pause, step, reheat, reset, descent only, finish; the cooling
+//! schedule and its parameter, the start temperature, seed and effort; the energy weights;
+//! the animation speed; and the status line.
+
+use serde::{Deserialize, Serialize};
+
+use lehr::engine::Snapshot;
+use lehr::place::{AnnealOptions, Schedule, Weights};
+
+use super::Action;
+
+/// The schedule settings the user picked, remembered between runs.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(default)]
+pub struct ControlSettings {
+    /// Index into [`Schedule::NAMES`].
+    pub kind: usize,
+    pub alpha: f64,
+    pub beta: f64,
+    pub target: f64,
+    pub lambda: f64,
+    /// Moves the engine makes between two pictures.
+    pub speed: u64,
+    pub seed: u64,
+    pub effort: f64,
+    pub auto_start: bool,
+    pub start_temperature: f64,
+    /// Fraction of the start temperature a reheat goes back to.
+    pub reheat: f64,
+}
+
+impl Default for ControlSettings {
+    fn default() -> Self {
+        let d = AnnealOptions::default();
+        ControlSettings {
+            kind: 0,
+            alpha: 0.95,
+            beta: 0.05,
+            target: 0.44,
+            lambda: 0.7,
+            speed: 20_000,
+            seed: d.seed,
+            effort: d.effort,
+            auto_start: true,
+            start_temperature: 1.0,
+            reheat: 0.3,
+        }
+    }
+}
+
+impl ControlSettings {
+    pub fn schedule(&self) -> Schedule {
+        match self.kind {
+            0 => Schedule::Geometric { alpha: self.alpha },
+            1 => Schedule::LundyMees { beta: self.beta },
+            2 => Schedule::LamDelosme {
+                target: self.target,
+            },
+            3 => Schedule::Huang {
+                lambda: self.lambda,
+            },
+            _ => Schedule::Descent,
+        }
+    }
+
+    /// The options a fresh start uses.
+    pub fn options(&self, weights: Option<Weights>) -> AnnealOptions {
+        AnnealOptions {
+            seed: self.seed,
+            schedule: self.schedule(),
+            effort: self.effort,
+            start_temperature: (!self.auto_start).then_some(self.start_temperature),
+            weights,
+            ..AnnealOptions::default()
+        }
+    }
+}
+
+/// Shortcut text shown in tooltips.
+pub const KEYS_RUN: &str = "Space";
+
+/// The controls panel's state: the settings being edited and the weights of the run.
+#[derive(Debug, Default)]
+pub struct Controls {
+    pub weights: Option<Weights>,
+}
+
+/// A label followed by a widget it names (so screen readers and tests find it by label).
+fn labelled(
+    ui: &mut egui::Ui,
+    label: &str,
+    add: impl FnOnce(&mut egui::Ui) -> egui::Response,
+) -> egui::Response {
+    ui.horizontal(|ui| {
+        let l = ui.label(label);
+        add(ui).labelled_by(l.id)
+    })
+    .inner
+}
+
+impl Controls {
+    pub fn ui(
+        &mut self,
+        ui: &mut egui::Ui,
+        s: &mut ControlSettings,
+        snap: Option<&Snapshot>,
+        actions: &mut Vec<Action>,
+    ) {
+        let running = snap.is_some_and(|s| s.running);
+        let done = snap.is_some_and(|s| s.done);
+        ui.heading("Annealing");
+        ui.horizontal_wrapped(|ui| {
+            if ui
+                .add_enabled(!running && !done, egui::Button::new("Run"))
+                .on_hover_text(format!("Anneal until frozen or paused ({KEYS_RUN})"))
+                .clicked()
+            {
+                actions.push(Action::Run);
+            }
+            if ui
+                .add_enabled(running, egui::Button::new("Pause"))
+                .on_hover_text(format!("Stop after the current batch of moves ({KEYS_RUN})"))
+                .clicked()
+            {
+                actions.push(Action::Pause);
+            }
+            if ui
+                .add_enabled(!running && !done, egui::Button::new("Step"))
+                .on_hover_text("Run one temperature stage, then pause (.)")
+                .clicked()
+            {
+                actions.push(Action::Step);
+            }
+            if ui
+                .button("Reheat")
+                .on_hover_text("Raise the temperature to the fraction below of the start temperature (H)")
+                .clicked()
+            {
+                actions.push(Action::Reheat(s.reheat));
+            }
+            if ui
+                .button("Reset")
+                .on_hover_text("Start over from the board's own positions (Ctrl+R)")
+                .clicked()
+            {
+                actions.push(Action::Reset);
+            }
+            if ui
+                .button("Descent only")
+                .on_hover_text("Start over at zero temperature: accept only moves that do not raise the energy, the baseline annealing must beat")
+                .clicked()
+            {
+                actions.push(Action::DescentOnly);
+            }
+            if ui
+                .button("Finish")
+                .on_hover_text("Stop, snap the parts to the placement grid and clear what conflicts remain (Ctrl+Enter)")
+                .clicked()
+            {
+                actions.push(Action::Finish);
+            }
+        });
+        labelled(ui, "reheat to", |ui| {
+            ui.add(egui::Slider::new(&mut s.reheat, 0.05..=1.0).fixed_decimals(2))
+        })
+        .on_hover_text("Fraction of the start temperature");
+        let speed = labelled(ui, "moves per frame", |ui| {
+            ui.add(egui::Slider::new(&mut s.speed, 1..=200_000).logarithmic(true))
+        })
+        .on_hover_text("1 shows every move (for teaching); the largest value runs at full speed");
+        if speed.changed() {
+            actions.push(Action::SetSpeed(s.speed));
+        }
+
+        ui.separator();
+        ui.heading("Schedule");
+        let before = s.schedule();
+        labelled(ui, "schedule", |ui| {
+            egui::ComboBox::from_id_salt("schedule-kind")
+                .selected_text(Schedule::NAMES[s.kind.min(4)])
+                .show_ui(ui, |ui| {
+                    for (k, name) in Schedule::NAMES.iter().enumerate() {
+                        ui.selectable_value(&mut s.kind, k, *name);
+                    }
+                })
+                .response
+        });
+        let hint = match s.kind {
+            0 => {
+                labelled(ui, "cooling factor", |ui| {
+                    ui.add(
+                        egui::DragValue::new(&mut s.alpha)
+                            .range(0.5..=0.9999)
+                            .speed(0.001)
+                            .fixed_decimals(4),
+                    )
+                });
+                "T(k+1) = alpha T(k)"
+            }
+            1 => {
+                labelled(ui, "beta", |ui| {
+                    ui.add(
+                        egui::DragValue::new(&mut s.beta)
+                            .range(0.0001..=10.0)
+                            .speed(0.001),
+                    )
+                });
+                "Lundy-Mees: T(k+1) = T(k) / (1 + beta T(k)), T in units of the start temperature"
+            }
+            2 => {
+                labelled(ui, "target acceptance", |ui| {
+                    ui.add(
+                        egui::DragValue::new(&mut s.target)
+                            .range(0.05..=0.95)
+                            .speed(0.005),
+                    )
+                });
+                "Lam-Delosme: steers the temperature so the acceptance follows a target path"
+            }
+            3 => {
+                labelled(ui, "lambda", |ui| {
+                    ui.add(
+                        egui::DragValue::new(&mut s.lambda)
+                            .range(0.01..=10.0)
+                            .speed(0.01),
+                    )
+                });
+                "Huang et al.: T(k+1) = T(k) exp(-lambda T(k) / sigma(k))"
+            }
+            _ => "Zero temperature: only moves that do not raise the energy",
+        };
+        ui.small(hint);
+        if s.schedule() != before {
+            actions.push(Action::SetSchedule(s.schedule()));
+        }
+
+        ui.checkbox(&mut s.auto_start, "automatic start temperature")
+            .on_hover_text(
+                "Derived from sampled uphill moves so that 80 % of them are accepted at first",
+            );
+        ui.add_enabled_ui(!s.auto_start, |ui| {
+            labelled(ui, "start temperature", |ui| {
+                ui.add(
+                    egui::DragValue::new(&mut s.start_temperature)
+                        .range(0.0..=1e9)
+                        .speed(0.01),
+                )
+            });
+        });
+        labelled(ui, "seed", |ui| ui.add(egui::DragValue::new(&mut s.seed)));
+        labelled(ui, "effort", |ui| {
+            ui.add(
+                egui::DragValue::new(&mut s.effort)
+                    .range(0.01..=1000.0)
+                    .speed(0.05),
+            )
+        })
+        .on_hover_text("Moves per temperature, as a multiple of N^(4/3) for N movable parts");
+        if ui
+            .button("Restart with these settings")
+            .on_hover_text("Seed, effort and start temperature apply from a fresh start")
+            .clicked()
+        {
+            actions.push(Action::Restart);
+        }
+
+        ui.separator();
+        ui.heading("Energy weights");
+        if let Some(w) = &mut self.weights {
+            let mut changed = false;
+            for (label, v) in [
+                ("wirelength", &mut w.wirelength),
+                ("overlap", &mut w.overlap),
+                ("outside", &mut w.outside),
+                ("keep-out", &mut w.keepout),
+            ] {
+                changed |= labelled(ui, label, |ui| {
+                    ui.add(egui::DragValue::new(v).range(0.0..=1e6).speed(0.01))
+                })
+                .changed();
+            }
+            if changed {
+                actions.push(Action::SetWeights(*w));
+            }
+        } else {
+            ui.label("waiting for the engine");
+        }
+    }
+}
+
+/// The status line: temperature, acceptance, speed, wirelength, conflicts.
+/// `frame_ms` is the time of the app's own frame code and, with a real window, of the
+/// whole frame.
+pub fn status_ui(ui: &mut egui::Ui, snap: Option<&Snapshot>, frame_ms: (Option<f64>, Option<f64>)) {
+    ui.horizontal_wrapped(|ui| {
+        let Some(s) = snap else {
+            ui.label("starting the engine");
+            return;
+        };
+        let state = if s.running {
+            "running"
+        } else if s.done {
+            "frozen"
+        } else {
+            "paused"
+        };
+        ui.label(state);
+        ui.separator();
+        ui.label(format!("T {}", sig(s.temperature)));
+        ui.separator();
+        ui.label(format!("accepted {:.1} %", 100.0 * s.acceptance));
+        ui.separator();
+        ui.label(format!("{} moves/s", big(s.moves_per_second)));
+        ui.separator();
+        ui.label(format!("moves {}", big(s.moves as f64)));
+        ui.separator();
+        ui.label(format!("stage {}", s.stage));
+        ui.separator();
+        ui.label(format!("wirelength {:.1} mm", s.wirelength_mm));
+        ui.separator();
+        let conflicts = s.conflicts.iter().filter(|&&c| c != 0).count();
+        ui.label(format!("parts in conflict {conflicts}"));
+        ui.separator();
+        ui.label(format!("window {:.2} mm", s.window));
+        if let Some(ms) = frame_ms.0 {
+            ui.separator();
+            ui.label(format!("ui {ms:.1} ms"))
+                .on_hover_text("Median time of lehr's own frame code (drawing the board and plots, handling input)");
+        }
+        if let Some(ms) = frame_ms.1 {
+            ui.separator();
+            ui.label(format!("frame {ms:.1} ms"))
+                .on_hover_text("Median CPU time of a whole frame, including tessellation and rendering");
+        }
+    });
+}
+
+/// Four significant digits, in scientific notation when very large or small.
+pub fn sig(v: f64) -> String {
+    if v == 0.0 {
+        "0".into()
+    } else if v.abs() >= 1e4 || v.abs() < 1e-2 {
+        format!("{v:.3e}")
+    } else {
+        format!("{v:.4}")
+    }
+}
+
+/// 1234567 as "1.23 M".
+pub fn big(v: f64) -> String {
+    if v >= 1e9 {
+        format!("{:.2} G", v / 1e9)
+    } else if v >= 1e6 {
+        format!("{:.2} M", v / 1e6)
+    } else if v >= 1e4 {
+        format!("{:.1} k", v / 1e3)
+    } else {
+        format!("{v:.0}")
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn settings_make_the_chosen_schedule() {
+        let mut s = ControlSettings::default();
+        assert_eq!(s.schedule(), Schedule::Geometric { alpha: 0.95 });
+        s.kind = 2;
+        assert_eq!(s.schedule(), Schedule::LamDelosme { target: 0.44 });
+        s.kind = 4;
+        assert!(s.schedule().is_descent());
+        s.auto_start = false;
+        s.start_temperature = 3.0;
+        assert_eq!(s.options(None).start_temperature, Some(3.0));
+    }
+
+    #[test]
+    fn numbers_read_well() {
+        assert_eq!(big(1_234_567.0), "1.23 M");
+        assert_eq!(big(950.0), "950");
+        assert_eq!(sig(0.5), "0.5000");
+        assert_eq!(sig(0.000123), "1.230e-4");
+    }
+}

@@ -1,0 +1,88 @@
+//! Files: the native open, save and export dialogs, and the list of recent boards. The
+//! dialogs may be unavailable (no desktop portal and no helper installed): then they
+//! return `None` and the window says so.
+
+use std::path::{Path, PathBuf};
+
+/// How many recent boards the File menu lists.
+pub const RECENT: usize = 8;
+
+/// Puts `path` at the top of the recent list, without duplicates, at most [`RECENT`].
+pub fn remember(recent: &mut Vec<PathBuf>, path: &Path) {
+    recent.retain(|p| p != path);
+    recent.insert(0, path.to_path_buf());
+    recent.truncate(RECENT);
+}
+
+/// Asks for a board file to open.
+pub fn pick_board(folder: Option<&Path>) -> Option<PathBuf> {
+    let mut d = rfd::FileDialog::new()
+        .set_title("Open a board")
+        .add_filter("board files", &["ron"])
+        .add_filter("all files", &["*"]);
+    if let Some(f) = folder {
+        d = d.set_directory(f);
+    }
+    d.pick_file()
+}
+
+/// Asks where to save a board.
+pub fn pick_save(folder: Option<&Path>, name: &str) -> Option<PathBuf> {
+    let mut d = rfd::FileDialog::new()
+        .set_title("Save the board")
+        .add_filter("board files", &["ron"])
+        .set_file_name(format!("{name}.{}", lehr::io::BOARD_EXTENSION));
+    if let Some(f) = folder {
+        d = d.set_directory(f);
+    }
+    d.save_file()
+}
+
+/// Asks where to write a PNG picture.
+pub fn pick_png(folder: Option<&Path>, name: &str) -> Option<PathBuf> {
+    let mut d = rfd::FileDialog::new()
+        .set_title("Export a picture of the board")
+        .add_filter("PNG pictures", &["png"])
+        .set_file_name(format!("{name}.png"));
+    if let Some(f) = folder {
+        d = d.set_directory(f);
+    }
+    d.save_file()
+}
+
+/// A short name for a board file: `dir/dimmer.board.ron` gives `dimmer`.
+pub fn short_name(path: &Path) -> String {
+    let file = path.file_name().and_then(|f| f.to_str()).unwrap_or("board");
+    file.strip_suffix(".board.ron")
+        .or_else(|| file.strip_suffix(".ron"))
+        .unwrap_or(file)
+        .to_string()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn recent_files_are_unique_newest_first_and_bounded() {
+        let mut r = Vec::new();
+        for i in 0..12 {
+            remember(&mut r, Path::new(&format!("b{i}.board.ron")));
+        }
+        remember(&mut r, Path::new("b5.board.ron"));
+        assert_eq!(r.len(), RECENT);
+        assert_eq!(r[0], Path::new("b5.board.ron"));
+        assert_eq!(r[1], Path::new("b11.board.ron"));
+        assert_eq!(
+            r.iter().filter(|p| *p == Path::new("b5.board.ron")).count(),
+            1
+        );
+    }
+
+    #[test]
+    fn short_names_drop_the_board_extension() {
+        assert_eq!(short_name(Path::new("/x/dimmer.board.ron")), "dimmer");
+        assert_eq!(short_name(Path::new("a.ron")), "a");
+        assert_eq!(short_name(Path::new("pic")), "pic");
+    }
+}

@@ -1,0 +1,349 @@
+//! Window tests with egui_kittest: the real app, headless (no display, no GPU), driven
+//! through its widgets found by their labels; assertions on the app's state.
+//!
+//! They live in the binary (not in tests/it) because the app is part of the binary: the
+//! library stays free of egui, even in its default build.
+
+use std::path::{Path, PathBuf};
+use std::sync::Arc;
+use std::time::{Duration, Instant};
+
+use egui_kittest::Harness;
+use egui_kittest::kittest::Queryable;
+
+use lehr::model::resolve;
+use lehr::place::{Schedule, generate};
+
+use super::{Action, LehrApp, Settings};
+
+/// A slow animation speed, so a run lasts long enough to pause it.
+fn slow() -> Settings {
+    let mut s = Settings::default();
+    s.controls.speed = 200;
+    s
+}
+
+fn grid_app() -> LehrApp {
+    let design = resolve(generate::grid_board(8, 2.54, 3)).expect("generated board is valid");
+    LehrApp::new(design, None, "grid".into(), slow())
+}
+
+fn harness(app: LehrApp) -> Harness<'static, LehrApp> {
+    Harness::builder()
+        .with_size([1280.0, 800.0])
+        .build_ui_state(|ui, app: &mut LehrApp| app.show(ui), app)
+}
+
+/// Steps frames (letting the worker run in between) until `f` holds, up to 20 s.
+fn wait_until(h: &mut Harness<'static, LehrApp>, what: &str, f: impl Fn(&LehrApp) -> bool) {
+    let end = Instant::now() + Duration::from_secs(20);
+    while Instant::now() < end {
+        h.step();
+        if f(h.state()) {
+            return;
+        }
+        std::thread::sleep(Duration::from_millis(15));
+    }
+    panic!("timed out waiting until {what}");
+}
+
+fn moves(app: &LehrApp) -> u64 {
+    app.snapshot().map_or(0, |s| s.moves)
+}
+
+fn running(app: &LehrApp) -> bool {
+    app.snapshot().is_some_and(|s| s.running)
+}
+
+#[derive(Debug)]
+struct Dropped(PathBuf);
+
+impl egui::DroppedFile for Dropped {
+    fn path(&self) -> &Path {
+        &self.0
+    }
+
+    fn bytes(&self) -> Result<Vec<u8>, String> {
+        std::fs::read(&self.0).map_err(|e| e.to_string())
+    }
+}
+
+fn drop_file(h: &mut Harness<'static, LehrApp>, path: &Path) {
+    h.input_mut()
+        .dropped_files
+        .push(Arc::new(Dropped(path.to_path_buf())));
+    h.step();
+}
+
+#[test]
+fn the_sample_board_opens_with_its_controls() {
+    let mut h = harness(LehrApp::sample(Settings::default()).expect("the sample board loads"));
+    wait_until(&mut h, "the first snapshot arrives", |a| {
+        a.snapshot().is_some()
+    });
+    let n = h.state().design().board.parts.len();
+    assert_eq!(h.state().snapshot().unwrap().positions.len(), n);
+    for label in [
+        "Run",
+        "Pause",
+        "Step",
+        "Reheat",
+        "Reset",
+        "Descent only",
+        "Finish",
+    ] {
+        h.get_by_label(label);
+    }
+    h.get_by_label("File");
+    assert!(!h.state().is_dirty());
+}
+
+#[test]
+fn run_makes_moves_and_pause_stops_them() {
+    let mut h = harness(grid_app());
+    wait_until(&mut h, "the first snapshot arrives", |a| {
+        a.snapshot().is_some()
+    });
+    assert_eq!(moves(h.state()), 0);
+    h.get_by_label("Run").click();
+    wait_until(&mut h, "moves increase", |a| moves(a) > 0 && running(a));
+    let m1 = moves(h.state());
+    wait_until(&mut h, "moves keep increasing", |a| moves(a) > m1);
+    assert!(!h.state().plots.history.is_empty(), "the plots get samples");
+    h.get_by_label("Pause").click();
+    wait_until(&mut h, "the run pauses", |a| !running(a));
+    let paused = moves(h.state());
+    for _ in 0..10 {
+        std::thread::sleep(Duration::from_millis(20));
+        h.step();
+    }
+    assert_eq!(moves(h.state()), paused);
+    assert!(h.state().is_dirty(), "annealing changes the board");
+}
+
+#[test]
+fn changing_the_cooling_factor_reaches_the_engine() {
+    let mut h = harness(grid_app());
+    wait_until(&mut h, "the first snapshot arrives", |a| {
+        a.snapshot().is_some()
+    });
+    h.get_by_label("cooling factor").set_value_accesskit(0.9);
+    h.step();
+    assert_eq!(h.state().settings.controls.alpha, 0.9);
+    wait_until(&mut h, "the engine uses the new schedule", |a| {
+        a.snapshot().and_then(|s| s.schedule) == Some(Schedule::Geometric { alpha: 0.9 })
+    });
+}
+
+#[test]
+fn a_locked_part_does_not_move() {
+    let mut h = harness(grid_app());
+    wait_until(&mut h, "the first snapshot arrives", |a| {
+        a.snapshot().is_some()
+    });
+    let part = 5u32;
+    h.state_mut().canvas.selected = Some(part);
+    h.step();
+    h.get_by_label("Lock").click();
+    wait_until(&mut h, "the part is locked", |a| {
+        a.snapshot().is_some_and(|s| s.locked[part as usize])
+    });
+    let at = h.state().snapshot().unwrap().positions[part as usize];
+    h.get_by_label("Unlock");
+    h.get_by_label("Run").click();
+    wait_until(&mut h, "many moves are made", |a| {
+        moves(a) > 20_000 || a.snapshot().is_some_and(|s| s.done)
+    });
+    let s = h.state().snapshot().unwrap();
+    assert_eq!(s.positions[part as usize], at);
+    // Others did move.
+    let before = resolve(generate::grid_board(8, 2.54, 3)).unwrap();
+    let moved = before
+        .board
+        .parts
+        .iter()
+        .zip(&s.positions)
+        .filter(|(p, q)| p.at != Some(**q))
+        .count();
+    assert!(moved > 10, "only {moved} parts moved");
+}
+
+#[test]
+fn a_broken_file_shows_where_it_is_broken() {
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("broken.board.ron");
+    std::fs::write(
+        &path,
+        "(\n    name: \"broken\",\n    outline: Rect(min: (0, 0), max: (10, 10)),\n    parts: [ oops ],\n)\n",
+    )
+    .unwrap();
+    let mut h = harness(grid_app());
+    drop_file(&mut h, &path);
+    h.step();
+    let text = h
+        .state()
+        .message_text()
+        .expect("an error is shown")
+        .to_string();
+    let want = format!("{}:4:", path.display());
+    assert!(text.contains(&want), "{text}");
+    h.get_by_label_contains(&want);
+    // The board that was open stays open.
+    assert_eq!(h.state().design().board.parts.len(), 64);
+}
+
+#[test]
+fn opening_asks_before_discarding_unsaved_changes_and_shows_cautions() {
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("mains.board.ron");
+    let mut board = generate::grid_board(3, 2.54, 1);
+    board.name = "mains".into();
+    board.classes.push(lehr::model::board::NetClass {
+        name: "line".into(),
+        track_width: 1.0,
+        clearance: 2.5,
+        current: None,
+        voltage: Some(325.0),
+        temp_rise: None,
+    });
+    lehr::io::save_board(&path, &board).unwrap();
+
+    let mut h = harness(grid_app());
+    wait_until(&mut h, "the first snapshot arrives", |a| {
+        a.snapshot().is_some()
+    });
+    h.state_mut().push(Action::Rotate(0));
+    wait_until(&mut h, "the edit is made", |a| a.is_dirty());
+    drop_file(&mut h, &path);
+    // (A new window is laid out once before it shows.)
+    h.run_steps(3);
+    // Still the old board: the window asks first.
+    assert_eq!(h.state().design().board.parts.len(), 64);
+    h.get_by_label("Discard changes").click();
+    h.step();
+    h.step();
+    assert_eq!(h.state().design().board.parts.len(), 9);
+    assert!(!h.state().is_dirty());
+    h.get_by_label_contains("licensed professional");
+}
+
+#[test]
+fn turning_a_part_can_be_undone_and_redone() {
+    let mut h = harness(grid_app());
+    wait_until(&mut h, "the first snapshot arrives", |a| {
+        a.snapshot().is_some()
+    });
+    let q0 = h.state().snapshot().unwrap().quarters[7];
+    h.state_mut().canvas.selected = Some(7);
+    h.key_press(egui::Key::R);
+    wait_until(&mut h, "the part turns", |a| {
+        a.snapshot().unwrap().quarters[7] != q0
+    });
+    let q1 = h.state().snapshot().unwrap().quarters[7];
+    assert_eq!(q1.index(), (q0.index() + 1) % 4);
+    h.key_press_modifiers(egui::Modifiers::COMMAND, egui::Key::Z);
+    wait_until(&mut h, "the turn is undone", |a| {
+        a.snapshot().unwrap().quarters[7] == q0
+    });
+    h.key_press_modifiers(
+        egui::Modifiers::COMMAND | egui::Modifiers::SHIFT,
+        egui::Key::Z,
+    );
+    wait_until(&mut h, "the turn is redone", |a| {
+        a.snapshot().unwrap().quarters[7] == q1
+    });
+}
+
+#[test]
+fn saving_writes_the_current_positions() {
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("grid.board.ron");
+    let mut h = harness(grid_app());
+    wait_until(&mut h, "the first snapshot arrives", |a| {
+        a.snapshot().is_some()
+    });
+    h.get_by_label("Step").click();
+    wait_until(&mut h, "a stage is run", |a| {
+        a.snapshot().is_some_and(|s| s.stage >= 1 && !s.running)
+    });
+    h.state_mut().save_to(&path);
+    assert!(!h.state().is_dirty());
+    let saved = lehr::io::load_board(&path).expect("the saved board loads");
+    let s = h.state().snapshot().unwrap();
+    for (p, q) in saved.board.parts.iter().zip(&s.positions) {
+        let at = p.at.unwrap();
+        assert!((at.x - q.x).abs() < 1e-5 && (at.y - q.y).abs() < 1e-5);
+    }
+    // And a picture of it.
+    let png = dir.path().join("grid.png");
+    h.state().export_png(&png, true).unwrap();
+    assert!(tiny_skia::Pixmap::load_png(&png).is_ok());
+}
+
+#[test]
+fn dragging_a_part_moves_it_and_undo_puts_it_back() {
+    let mut h = harness(grid_app());
+    wait_until(&mut h, "the first snapshot arrives", |a| {
+        a.snapshot().is_some()
+    });
+    h.run_steps(2);
+    let part = 9usize;
+    let at0 = h.state().snapshot().unwrap().positions[part];
+    let centre = h.state().geom.parts[part].court.center();
+    let from = h
+        .state()
+        .canvas
+        .screen_from_board(centre)
+        .expect("the canvas was drawn");
+    let scale = h.state().canvas.scale() as f32;
+    // Three millimetres to the right, in a few pointer moves.
+    let to = from + egui::vec2(3.0 * scale, 0.0);
+    h.hover_at(from);
+    h.step();
+    h.drag_at(from);
+    h.step();
+    for k in 1..=4 {
+        h.hover_at(from + (to - from) * (k as f32 / 4.0));
+        h.step();
+    }
+    h.drop_at(to);
+    h.step();
+    assert_eq!(h.state().canvas.selected, Some(part as u32));
+    wait_until(&mut h, "the part moves", |a| {
+        a.snapshot().unwrap().positions[part] != at0
+    });
+    let at1 = h.state().snapshot().unwrap().positions[part];
+    // Snapped to the placement grid (2.54 mm on this board): one pitch to the right.
+    assert!((at1.x - at0.x - 2.54).abs() < 1e-9, "{at0:?} -> {at1:?}");
+    assert!((at1.y - at0.y).abs() < 1e-9);
+    h.state_mut().push(Action::Undo);
+    wait_until(&mut h, "the move is undone", |a| {
+        a.snapshot().unwrap().positions[part] == at0
+    });
+}
+
+#[test]
+fn finish_reports_in_the_window() {
+    let mut h = harness(grid_app());
+    wait_until(&mut h, "the first snapshot arrives", |a| {
+        a.snapshot().is_some()
+    });
+    h.get_by_label("Finish").click();
+    wait_until(&mut h, "the finish is reported", |a| {
+        a.message_text().is_some_and(|t| t.starts_with("Finished"))
+    });
+    h.step();
+    h.get_by_label_contains("Finished");
+    // The parts stand on the 2.54 mm placement grid afterwards.
+    wait_until(
+        &mut h,
+        "the engine continues from the finished board",
+        |a| {
+            a.snapshot().is_some_and(|s| {
+                s.positions
+                    .iter()
+                    .all(|p| ((p.x / 2.54).round() * 2.54 - p.x).abs() < 1e-6)
+            })
+        },
+    );
+}
