@@ -373,35 +373,32 @@ impl Worker {
             }
             Command::Finish => {
                 self.running = false;
-                if let Some(a) = self.an.take() {
-                    let start = Instant::now();
-                    match place::finish(&self.design, a, start) {
-                        Ok(p) => {
-                            let conflicts = p.report.conflicts.clone();
-                            // Continue from the finished positions.
-                            let mut d = self.design.clone();
-                            d.board = p.board.clone();
-                            let mut opts = self.opts.clone();
-                            opts.scatter = false;
-                            self.an = Annealer::new(&d, opts).ok();
-                            self.epoch += 1;
-                            self.samples.clear();
-                            self.stages_sent = 0;
-                            let _ = self.events.send(Event::Finished(Box::new(Finished {
-                                board: p.board,
-                                report: p.report,
-                                conflicts,
-                            })));
-                        }
-                        Err(e) => {
-                            let _ = self.events.send(Event::Error(e.to_string()));
-                        }
-                    }
-                }
+                self.finish_run();
                 self.send_snapshot();
             }
             Command::Refresh => self.send_snapshot(),
             Command::Shutdown => {}
+        }
+    }
+
+    /// The legal finish on the current run, answered by [`Event::Finished`]. The run
+    /// keeps its move count and plots; a reheat continues from the finished layout.
+    fn finish_run(&mut self) {
+        let Some(a) = &mut self.an else {
+            return;
+        };
+        match place::finish(&self.design, a, Instant::now()) {
+            Ok(p) => {
+                let conflicts = p.report.conflicts.clone();
+                let _ = self.events.send(Event::Finished(Box::new(Finished {
+                    board: p.board,
+                    report: p.report,
+                    conflicts,
+                })));
+            }
+            Err(e) => {
+                let _ = self.events.send(Event::Error(e.to_string()));
+            }
         }
     }
 
@@ -432,7 +429,8 @@ impl Worker {
             temperature: a.temperature(),
             acceptance: if m > 0 { acc as f64 / m as f64 } else { 0.0 },
         });
-        if a.is_done() {
+        let just_done = a.is_done();
+        if just_done {
             self.running = false;
         }
         if let Some(s) = self.stop_after_stage
@@ -445,6 +443,12 @@ impl Worker {
         if elapsed >= Duration::from_secs(1) {
             self.moves_per_second = (a.moves() - self.rate_window.1) as f64 / elapsed.as_secs_f64();
             self.rate_window = (Instant::now(), a.moves());
+        }
+        if just_done {
+            // Frozen or out of budget: the legal finish follows on its own, so a run
+            // ends with every part on the grid and clear of the others (or a list of
+            // what could not be cleared).
+            self.finish_run();
         }
         if !self.running || self.last_snapshot.elapsed() >= SNAPSHOT_INTERVAL {
             self.send_snapshot();

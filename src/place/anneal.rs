@@ -663,6 +663,14 @@ impl Annealer {
         self.t = t.max(0.0);
     }
 
+    /// Recomputes the running energy from the layout (after changes made outside the
+    /// move loop, such as the legal finish).
+    pub fn refresh_energy(&mut self) {
+        self.layout.resync();
+        self.energy = self.layout.terms().energy(&self.weights);
+        self.best_energy = self.best_energy.min(self.energy);
+    }
+
     /// Changes the energy weights; the running energy follows.
     pub fn set_weights(&mut self, w: Weights) {
         self.weights = w;

@@ -195,7 +195,7 @@ pub fn legalize(an: &mut Annealer, refs: &[String]) -> Vec<Conflict> {
     let w = an.weights().with_legality_factor(1e3);
     polish(an, &movable, &w, sweeps, true);
 
-    an.layout_mut().resync();
+    an.refresh_energy();
     conflicts(an.layout(), refs)
 }
 

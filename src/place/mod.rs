@@ -96,11 +96,11 @@ pub fn place(
     let start = Instant::now();
     let mut an = Annealer::new(design, opts.clone())?;
     an.run(observe);
-    finish(design, an, start)
+    finish(design, &mut an, start)
 }
 
 /// The legal finish and the report, for a run driven step by step.
-pub fn finish(design: &Design, mut an: Annealer, start: Instant) -> Result<Placed, PlaceError> {
+pub fn finish(design: &Design, an: &mut Annealer, start: Instant) -> Result<Placed, PlaceError> {
     let refs: Vec<String> = design
         .board
         .parts
@@ -108,7 +108,7 @@ pub fn finish(design: &Design, mut an: Annealer, start: Instant) -> Result<Place
         .map(|p| p.reference.clone())
         .collect();
     let annealed_wirelength_mm = an.layout().wirelength_mm();
-    let conflicts = legal::legalize(&mut an, &refs);
+    let conflicts = legal::legalize(an, &refs);
     let layout = an.layout();
     let terms = layout.terms();
     let seconds = start.elapsed().as_secs_f64();
