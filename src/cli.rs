@@ -180,7 +180,10 @@ fn place_cmd(a: PlaceArgs) -> Result<ExitCode> {
         scatter: a.scatter,
         ..AnnealOptions::default()
     };
-    let out = a.out.clone().unwrap_or_else(|| placed_name(&a.board));
+    let out = a
+        .out
+        .clone()
+        .unwrap_or_else(|| with_suffix(&a.board, "placed"));
     if !a.json {
         eprintln!(
             "placing {} ({} parts, {} nets) with {}, seed {}",
@@ -225,8 +228,9 @@ fn place_cmd(a: PlaceArgs) -> Result<ExitCode> {
     })
 }
 
-/// `dir/name.board.ron` -> `dir/name.placed.board.ron`.
-fn placed_name(input: &Path) -> PathBuf {
+/// `dir/name.board.ron` -> `dir/name.SUFFIX.board.ron`: where a command writes its result
+/// when no `--out` is given.
+pub fn with_suffix(input: &Path, suffix: &str) -> PathBuf {
     let file = input
         .file_name()
         .and_then(|f| f.to_str())
@@ -235,7 +239,7 @@ fn placed_name(input: &Path) -> PathBuf {
         .strip_suffix(".board.ron")
         .or_else(|| file.strip_suffix(".ron"))
         .unwrap_or(file);
-    input.with_file_name(format!("{stem}.placed.board.ron"))
+    input.with_file_name(format!("{stem}.{suffix}.board.ron"))
 }
 
 /// Runs a placement, with a progress line on a terminal.

@@ -1,7 +1,7 @@
 //! `lehr route`, `lehr check` and `lehr width`: the copper side of the command line.
 
 use std::io::IsTerminal;
-use std::path::{Path, PathBuf};
+use std::path::PathBuf;
 use std::process::ExitCode;
 use std::sync::atomic::AtomicBool;
 use std::time::Duration;
@@ -59,18 +59,6 @@ pub struct WidthArgs {
     pub json: bool,
 }
 
-fn with_suffix(input: &Path, suffix: &str) -> PathBuf {
-    let file = input
-        .file_name()
-        .and_then(|f| f.to_str())
-        .unwrap_or("board.ron");
-    let stem = file
-        .strip_suffix(".board.ron")
-        .or_else(|| file.strip_suffix(".ron"))
-        .unwrap_or(file);
-    input.with_file_name(format!("{stem}.{suffix}.board.ron"))
-}
-
 pub fn route_cmd(a: RouteArgs) -> Result<ExitCode> {
     let design = lehr::io::load_board(&a.board)?;
     let mut opts = RouteOptions {
@@ -105,7 +93,7 @@ pub fn route_cmd(a: RouteArgs) -> Result<ExitCode> {
     let out = a
         .out
         .clone()
-        .unwrap_or_else(|| with_suffix(&a.board, "routed"));
+        .unwrap_or_else(|| crate::cli::with_suffix(&a.board, "routed"));
     lehr::io::save_board(&out, &board)?;
     if a.json {
         println!(
