@@ -544,12 +544,7 @@ impl LehrApp {
                     quarter,
                     ..before
                 };
-                self.undo.record(Edit {
-                    part,
-                    before,
-                    after,
-                });
-                self.set_part(part, after);
+                self.edit(part, before, after);
             }
             Action::Rotate(part) => {
                 if let Some(before) = self.part_state(part)
@@ -559,12 +554,7 @@ impl LehrApp {
                         quarter: Quarter::from_index(before.quarter.index() + 1),
                         ..before
                     };
-                    self.undo.record(Edit {
-                        part,
-                        before,
-                        after,
-                    });
-                    self.set_part(part, after);
+                    self.edit(part, before, after);
                 }
             }
             Action::ToggleLock(part) => {
@@ -573,12 +563,7 @@ impl LehrApp {
                         locked: !before.locked,
                         ..before
                     };
-                    self.undo.record(Edit {
-                        part,
-                        before,
-                        after,
-                    });
-                    self.set_part(part, after);
+                    self.edit(part, before, after);
                 }
             }
             Action::Undo => {
@@ -655,6 +640,16 @@ impl LehrApp {
             error: false,
             text: "No file chosen. (If no dialog appeared, this desktop has no file-dialog service: open a board with `lehr open FILE` or drop it on the window.)".into(),
         });
+    }
+
+    /// A manual edit: recorded for undo, then applied.
+    fn edit(&mut self, part: u32, before: PartState, after: PartState) {
+        self.undo.record(Edit {
+            part,
+            before,
+            after,
+        });
+        self.set_part(part, after);
     }
 
     fn set_part(&mut self, part: u32, s: PartState) {
