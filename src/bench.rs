@@ -125,6 +125,25 @@ pub fn run(args: &BenchArgs) -> Result<ExitCode> {
         out.insert(format!("grid{n}_legal"), json!(r.legal));
         out.insert(format!("grid{n}_schedule"), json!(schedule.name()));
         if Some(n) == last {
+            // The same instance, clusters first (`--multilevel`).
+            let ml = AnnealOptions {
+                multilevel: true,
+                ..opts.clone()
+            };
+            let m = place::place(&design, &ml, |_| true)?;
+            let mr = m.report.wirelength_mm / opt;
+            say(format!(
+                "grid {n}x{n} multilevel ({}, effort {effort}): ratio {mr:.4}, legal {}, {:.2} s, {} moves",
+                schedule.name(),
+                m.report.legal,
+                m.report.seconds,
+                m.report.moves
+            ));
+            out.insert(format!("grid{n}_multilevel_ratio"), json!(mr));
+            out.insert(
+                format!("grid{n}_multilevel_seconds"),
+                json!(m.report.seconds),
+            );
             let descent = AnnealOptions {
                 schedule: Schedule::Descent,
                 max_moves: Some(r.moves),

@@ -69,6 +69,10 @@ struct PlaceArgs {
     /// Ignore the file's positions of unlocked parts and start from a random spread.
     #[arg(long)]
     scatter: bool,
+    /// Place clusters of strongly connected parts first, then the parts (for large,
+    /// dense boards).
+    #[arg(long)]
+    multilevel: bool,
     /// Where to write the placed board (default: NAME.placed.board.ron beside the input).
     #[arg(long)]
     out: Option<PathBuf>,
@@ -178,6 +182,7 @@ fn place_cmd(a: PlaceArgs) -> Result<ExitCode> {
         max_moves: a.moves,
         effort: a.effort,
         scatter: a.scatter,
+        multilevel: a.multilevel,
         ..AnnealOptions::default()
     };
     let out = a

@@ -51,6 +51,15 @@ pub struct AnnealOptions {
     /// Place every unlocked part at a random spot before starting, ignoring the file's
     /// positions.
     pub scatter: bool,
+    /// Displacement window at the start, mm (`None`: the whole board). A smaller one
+    /// also lowers the start temperature derived from sampled moves: a warm start that
+    /// repairs local order without undoing the global one (multilevel refinement).
+    #[serde(default)]
+    pub start_window: Option<f64>,
+    /// Place clusters of strongly connected parts first, then the parts
+    /// ([`super::multilevel`]); used by [`super::place`], not by a bare [`Annealer`].
+    #[serde(default)]
+    pub multilevel: bool,
 }
 
 impl Default for AnnealOptions {
@@ -69,6 +78,8 @@ impl Default for AnnealOptions {
             frozen_acceptance: 0.02,
             frozen_stages: 5,
             scatter: false,
+            start_window: None,
+            multilevel: false,
         }
     }
 }
@@ -234,7 +245,9 @@ impl Annealer {
             max_window,
             t: 0.0,
             t0: 0.0,
-            window: max_window,
+            window: opts
+                .start_window
+                .map_or(max_window, |w| w.clamp(grid, max_window)),
             energy,
             moves: 0,
             accepted: 0,
@@ -762,6 +775,11 @@ fn check_options(o: &AnnealOptions) -> Result<(), PlaceError> {
         && !(t.is_finite() && t >= 0.0)
     {
         return bad("start temperature", "a finite number >= 0", t);
+    }
+    if let Some(w) = o.start_window
+        && !(w.is_finite() && w > 0.0)
+    {
+        return bad("start window", "a positive number of mm", w);
     }
     if !(0.0..=1.0).contains(&o.block_fraction) {
         return bad("block fraction", "between 0 and 1", o.block_fraction);

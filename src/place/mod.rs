@@ -16,6 +16,7 @@ mod hash;
 pub mod layout;
 pub mod legal;
 pub mod mst;
+pub mod multilevel;
 pub mod rng;
 pub mod schedule;
 
@@ -93,6 +94,9 @@ pub fn place(
     opts: &AnnealOptions,
     observe: impl FnMut(&StageReport) -> bool,
 ) -> Result<Placed, PlaceError> {
+    if opts.multilevel {
+        return multilevel::place(design, opts, observe);
+    }
     let start = Instant::now();
     let mut an = Annealer::new(design, opts.clone())?;
     an.run(observe);
