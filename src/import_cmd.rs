@@ -23,8 +23,8 @@ pub struct ImportArgs {
     #[arg(long)]
     pub footprints: Option<PathBuf>,
     /// Board outline W x H in mm, e.g. 50x30 (default: a square sized from the parts).
-    #[arg(long, value_parser = parse_outline)]
-    pub outline: Option<OutlineSize>,
+    #[arg(long)]
+    pub outline: Option<String>,
     /// Where to write the board file.
     #[arg(long)]
     pub out: PathBuf,
@@ -33,19 +33,21 @@ pub struct ImportArgs {
     pub json: bool,
 }
 
-fn parse_outline(s: &str) -> Result<OutlineSize, String> {
-    s.parse()
-}
-
 pub fn import_cmd(a: ImportArgs) -> Result<ExitCode> {
     let files = ImportFiles {
         netlist: &a.file,
         parts: a.parts.as_deref(),
         footprints: a.footprints.as_deref(),
     };
+    // Parsed here rather than by clap so that a bad value exits with 1 and one line,
+    // like every other import error.
+    let outline = match a.outline.as_deref() {
+        Some(s) => Some(s.parse::<OutlineSize>().map_err(anyhow::Error::msg)?),
+        None => None,
+    };
     let opts = ImportOptions {
         name: None,
-        outline: a.outline,
+        outline,
     };
     let (format, imported) = import_file(&files, &opts)?;
     lehr::io::save_board(&a.out, &imported.board)?;

@@ -738,6 +738,7 @@ pub fn import_edif(
         });
     }
 
+    let mut net_lines: HashMap<String, usize> = HashMap::new();
     for c in contents.lists() {
         match c.head().as_deref() {
             Some("instance") => {}
@@ -754,6 +755,15 @@ pub fn import_edif(
                 };
                 if name.trim().is_empty() {
                     problems.push(problem(c.at, Reason::EmptyField("net name")));
+                    continue;
+                }
+                if let Some(first) = net_lines.insert(name.clone(), c.at.line) {
+                    problems.push(problem(
+                        c.at,
+                        Reason::Syntax(format!(
+                            "net \"{name}\" is defined twice (first at line {first})"
+                        )),
+                    ));
                     continue;
                 }
                 for j in c.body() {
