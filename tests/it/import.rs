@@ -845,6 +845,65 @@ fn imported_board_places_legally_and_round_trips() {
     assert_eq!(lehr::io::load_board(&path).unwrap().board, placed.board);
 }
 
+/// `lehr import` itself: the format from the extension, JSON output, the board written;
+/// on error exit code 1, one line on stderr, and an existing output file left alone.
+#[test]
+fn command_line_import() {
+    let exe = env!("CARGO_BIN_EXE_lehr");
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("vent.board.ron");
+    let n = netlist_dir();
+    let run =
+        |args: &[&std::ffi::OsStr]| std::process::Command::new(exe).args(args).output().unwrap();
+    let ok = run(&[
+        "import".as_ref(),
+        n.join("vent-controller.edif").as_os_str(),
+        "--footprints".as_ref(),
+        n.join("vent-controller.footprints.txt").as_os_str(),
+        "--outline".as_ref(),
+        "40x35".as_ref(),
+        "--out".as_ref(),
+        out.as_os_str(),
+        "--json".as_ref(),
+    ]);
+    assert!(
+        ok.status.success(),
+        "{}",
+        String::from_utf8_lossy(&ok.stderr)
+    );
+    let v: serde_json::Value = serde_json::from_slice(&ok.stdout).unwrap();
+    assert_eq!(v["format"], "EDIF");
+    assert_eq!(v["parts"], 15);
+    assert_eq!(v["outline_mm"], serde_json::json!([40.0, 35.0]));
+    let saved = std::fs::read(&out).unwrap();
+    assert_eq!(lehr::io::load_board(&out).unwrap().board.parts.len(), 15);
+    // Without the mapping file: refused, one line, the old file untouched.
+    let bad = run(&[
+        "import".as_ref(),
+        n.join("vent-controller.edif").as_os_str(),
+        "--out".as_ref(),
+        out.as_os_str(),
+    ]);
+    assert_eq!(bad.status.code(), Some(1));
+    let err = String::from_utf8_lossy(&bad.stderr);
+    assert_eq!(err.lines().count(), 1, "{err}");
+    assert!(
+        err.contains("vent-controller.edif:69:11: part R1 has no footprint"),
+        "{err}"
+    );
+    assert_eq!(std::fs::read(&out).unwrap(), saved);
+    let bad = run(&[
+        "import".as_ref(),
+        n.join("vent-controller.csv").as_os_str(),
+        "--outline".as_ref(),
+        "wide".as_ref(),
+        "--out".as_ref(),
+        out.as_os_str(),
+    ]);
+    assert_eq!(bad.status.code(), Some(1));
+    assert_eq!(String::from_utf8_lossy(&bad.stderr).lines().count(), 1);
+}
+
 // ---------------------------------------------------------------------------------------
 // Never a panic
 // ---------------------------------------------------------------------------------------
