@@ -79,9 +79,20 @@ pub fn read_records(text: &str, delimiter: char, file: &str) -> Result<Vec<Recor
     let mut chars = text.chars().peekable();
     let (mut line, mut col) = (1usize, 1usize);
     loop {
-        // At the start of a field.
-        let start = Location { line, column: col };
+        // At the start of a field. Spaces before an opening quote are dropped (a common
+        // habit of writers, outside RFC 4180's grammar).
         let mut value = String::new();
+        let mut ahead = chars.clone();
+        let mut spaces = 0;
+        while delimiter != ' ' && ahead.peek() == Some(&' ') {
+            ahead.next();
+            spaces += 1;
+        }
+        if spaces > 0 && ahead.peek() == Some(&'"') {
+            chars = ahead;
+            col += spaces;
+        }
+        let start = Location { line, column: col };
         let mut ended_record = false;
         if chars.peek() == Some(&'"') {
             chars.next();

@@ -699,6 +699,21 @@ pub fn import_edif(
                 format!("instance {reference} has no (viewRef (cellRef ...))"),
             );
         }
+        if let Some(i) = ci
+            && cells[i]
+                .2
+                .contents
+                .is_some_and(|l| l.lists().any(|x| x.is("instance")))
+        {
+            rd.warn(
+                inst.at,
+                format!(
+                    "instance {reference} is a sheet of the hierarchy (cell {} has instances of its own); hierarchies are not flattened, so it is left out",
+                    cells[i].2.display
+                ),
+            );
+            continue;
+        }
         let cell_props: &[Property] = ci.map_or(&[], |i| cells[i].2.props.as_slice());
         let names = ["footprint", "package"];
         let footprint = if let Some(p) = find_property(&props, &names) {

@@ -165,6 +165,16 @@ fn rfc4180_violations_are_located() {
 }
 
 #[test]
+fn spaces_around_fields() {
+    // Outside RFC 4180 (which counts spaces as part of a field), spaces around unquoted
+    // fields and before an opening quote are dropped; quoted text keeps its spaces.
+    let r = read_records("a , \" b\" ,c\n", ',', "s.csv").unwrap();
+    let got: Vec<&str> = r[0].fields.iter().map(|f| f.text.as_str()).collect();
+    assert_eq!(got, ["a", " b", "c"]);
+    assert_eq!(r[0].fields[1].at, Location { line: 1, column: 5 });
+}
+
+#[test]
 fn delimiter_is_detected() {
     assert_eq!(detect_delimiter("net,part,pin\n"), ',');
     assert_eq!(detect_delimiter("net\tpart\tpin\n"), '\t');
@@ -535,6 +545,25 @@ fn edif_sample_matches_its_connection_list() {
         .map(|n| n.name.as_str())
         .collect();
     assert_eq!(power, ["VIN", "GND", "MOTOR_N"]);
+}
+
+#[test]
+fn edif_hierarchy_is_not_flattened() {
+    // A cell whose contents hold instances of its own is a sheet, not a part: it is left
+    // out with a warning, and so are its pins.
+    let text = "(edif h (library l\n\
+        (cell R (view v (interface (port &1) (port &2)) (property footprint (string \"0603\"))))\n\
+        (cell SHEET (view v (interface (port a)) (contents (instance R9 (viewRef v (cellRef R))))))\n\
+        (cell TOP (view v (contents\n\
+          (instance S1 (viewRef v (cellRef SHEET)))\n\
+          (instance R1 (viewRef v (cellRef R)))\n\
+          (net N (joined (portRef &1 (instanceRef R1)) (portRef a (instanceRef S1)))))))))";
+    let imp = edif(text, None).unwrap();
+    assert_eq!(imp.board.parts.len(), 1);
+    assert_eq!(nets(&imp.board)["N"], pins(&["R1.1"]));
+    assert_eq!(imp.warnings.len(), 1, "{:?}", imp.warnings);
+    assert_eq!((imp.warnings[0].at.line, imp.warnings[0].at.column), (5, 1));
+    assert!(imp.warnings[0].message.contains("not flattened"));
 }
 
 #[test]
