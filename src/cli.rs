@@ -47,6 +47,8 @@ enum Command {
     Check(crate::copper_cmds::CheckArgs),
     /// Track width for a current (IPC-2221).
     Width(crate::copper_cmds::WidthArgs),
+    /// Turn a netlist (CSV/TSV connection list or EDIF 2 0 0) into a board file.
+    Import(crate::import_cmd::ImportArgs),
 }
 
 #[derive(Args, Debug)]
@@ -168,6 +170,7 @@ pub fn run() -> Result<ExitCode> {
         Some(Command::Route(a)) => crate::copper_cmds::route_cmd(a),
         Some(Command::Check(a)) => crate::copper_cmds::check_cmd(a),
         Some(Command::Width(a)) => crate::copper_cmds::width_cmd(a),
+        Some(Command::Import(a)) => crate::import_cmd::import_cmd(a),
     }
 }
 

@@ -13,6 +13,9 @@
 //! the field out means absent.
 
 mod atomic;
+pub mod connections;
+pub mod edif;
+pub mod import;
 mod locate;
 
 use std::fmt::Write as _;
@@ -25,6 +28,9 @@ use thiserror::Error;
 use crate::model::check::resolve;
 use crate::model::{Board, Design, Problem};
 
+pub use import::{
+    Format, ImportError, ImportFiles, ImportOptions, Imported, OutlineSize, import_file,
+};
 pub use locate::{Location, Locator, locate};
 
 /// The recommended ending of a board file's name, as in `thermostat.board.ron`. (File

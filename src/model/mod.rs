@@ -4,6 +4,7 @@ pub mod board;
 pub mod check;
 pub mod footprint;
 pub mod geom;
+pub mod names;
 mod packages;
 
 pub use board::{

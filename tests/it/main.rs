@@ -5,6 +5,8 @@
 mod boards;
 mod engine;
 mod footprints;
+/// Netlist import: RFC 4180 connection lists, EDIF 2 0 0, footprint names.
+mod import;
 mod io;
 mod place;
 /// The router: A* against the `pathfinding` crate, and routed boards against the checker.
