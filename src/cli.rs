@@ -47,6 +47,8 @@ enum Command {
     Check(crate::copper_cmds::CheckArgs),
     /// Track width for a current (IPC-2221).
     Width(crate::copper_cmds::WidthArgs),
+    /// Write pictures and fabrication files (Gerber, NC drill, centroid) of a board.
+    Export(crate::export_cmd::ExportArgs),
 }
 
 #[derive(Args, Debug)]
@@ -75,6 +77,9 @@ struct PlaceArgs {
     /// Print one JSON object with the results instead of text.
     #[arg(long)]
     json: bool,
+    /// Also write the run log (one CSV row per annealing stage) here.
+    #[arg(long, value_name = "FILE")]
+    log: Option<PathBuf>,
 }
 
 #[derive(Args, Debug)]
@@ -164,6 +169,7 @@ pub fn run() -> Result<ExitCode> {
         Some(Command::Route(a)) => crate::copper_cmds::route_cmd(a),
         Some(Command::Check(a)) => crate::copper_cmds::check_cmd(a),
         Some(Command::Width(a)) => crate::copper_cmds::width_cmd(a),
+        Some(Command::Export(a)) => crate::export_cmd::export_cmd(a),
     }
 }
 
@@ -196,6 +202,9 @@ fn place_cmd(a: PlaceArgs) -> Result<ExitCode> {
     }
     let placed = run_place(&design, &opts, !a.json)?;
     lehr::io::save_board(&out, &placed.board)?;
+    if let Some(log) = &a.log {
+        lehr::io::write_file(log, lehr::fab::runlog::run_log(&placed.history).as_bytes())?;
+    }
     if a.json {
         let r = &placed.report;
         let v = json!({

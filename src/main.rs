@@ -5,6 +5,7 @@ mod app;
 mod bench;
 mod cli;
 mod copper_cmds;
+mod export_cmd;
 
 use std::process::ExitCode;
 
