@@ -8,9 +8,11 @@
 //!
 //! Each element carries a class naming what it is (`pad-top`, `track-bottom`, `via`,
 //! `courtyard`, `reference`, ...) and elements of one class are grouped in a `<g>` of that
-//! id, in the order the scene first draws them, so an editor can show or hide a layer. The
-//! scene's `Pen` calls say how to draw, not what; the pen recognises what by the palette
-//! colour the scene chose for it (every palette colour is distinct).
+//! id, so an editor can show or hide a layer. The groups are stacked in a fixed order
+//! ([`STACK`]: board, keep-outs, tracks, vias, courtyards, bodies, pads, holes, edges,
+//! references), which is the scene's order for each part; within a group the scene's
+//! order is kept. The scene's `Pen` calls say how to draw, not what; the pen recognises
+//! what by the palette colour the scene chose for it (every palette colour is distinct).
 
 use std::fmt::Write as _;
 
@@ -77,6 +79,31 @@ fn classes(pal: &Palette) -> Vec<(Color32, &'static str)> {
     ]
 }
 
+/// The order the groups are stacked in, bottom first; a class not listed goes on top.
+const STACK: [&str; 21] = [
+    "board",
+    "keepout",
+    "keepout-edge",
+    "outline",
+    "track-bottom",
+    "track-top",
+    "via",
+    "courtyard",
+    "courtyard-locked",
+    "body",
+    "pad-bottom",
+    "pad-top",
+    "drill",
+    "courtyard-edge",
+    "courtyard-locked-edge",
+    "hovered",
+    "conflict",
+    "selected",
+    "unrouted",
+    "highlight",
+    "reference",
+];
+
 struct SvgPen {
     bounds: Rect,
     background: Color32,
@@ -122,7 +149,10 @@ impl SvgPen {
         g.push('\n');
     }
 
-    fn finish(self, title: &str) -> String {
+    fn finish(mut self, title: &str) -> String {
+        let rank = |c: &str| STACK.iter().position(|k| *k == c).unwrap_or(STACK.len());
+        // Stable: classes off the list keep the order they were first drawn in.
+        self.groups.sort_by_key(|(c, _)| rank(c));
         let (w, h) = (num(self.bounds.width()), num(self.bounds.height()));
         let mut s = String::new();
         s.push_str("<?xml version=\"1.0\" encoding=\"UTF-8\"?>\n");
@@ -147,12 +177,9 @@ impl SvgPen {
     }
 }
 
-/// A length or coordinate in mm, to the micrometre.
+/// A length or coordinate in mm with at most 4 decimals (0.1 micrometre), no trailing
+/// zeros.
 fn num(v: f64) -> String {
-    lehr_decimal(v)
-}
-
-fn lehr_decimal(v: f64) -> String {
     let s = format!("{v:.4}");
     let s = s.trim_end_matches('0').trim_end_matches('.');
     if s == "-0" || s.is_empty() {
@@ -164,10 +191,7 @@ fn lehr_decimal(v: f64) -> String {
 
 fn hex(c: Color32) -> (String, String) {
     let [r, g, b, a] = c.to_srgba_unmultiplied();
-    (
-        format!("#{r:02x}{g:02x}{b:02x}"),
-        lehr_decimal(f64::from(a) / 255.0),
-    )
+    (format!("#{r:02x}{g:02x}{b:02x}"), num(f64::from(a) / 255.0))
 }
 
 fn fill(c: Color32) -> String {
@@ -310,6 +334,13 @@ mod tests {
                     assert_ne!(a.0, b.0, "{} and {} share a colour", a.1, b.1);
                 }
             }
+        }
+    }
+
+    #[test]
+    fn every_class_has_its_place_in_the_stack() {
+        for (_, class) in classes(&Palette::light()) {
+            assert!(STACK.contains(&class), "{class}");
         }
     }
 

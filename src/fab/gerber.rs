@@ -19,8 +19,9 @@
 //!   attributes (`%TO...*%`), 5.5 deleting attributes (`%TD*%`); the standard attributes of
 //!   5.6: `.GenerationSoftware`, `.FileFunction` (Copper,L1,Top / Copper,L2,Bot /
 //!   Soldermask,Top / Soldermask,Bot / Profile,NP), `.FilePolarity`, `.AperFunction`
-//!   (SMDPad,CuDef / ComponentPad / ViaPad / Conductor / Profile), `.P` (pad: part and pin)
-//!   and `.N` (net) (5.6 subsection numbers from memory, so not given).
+//!   (5.6.10: SMDPad,CuDef / ComponentPad / ViaPad / Conductor / Profile), `.N` (5.6.13,
+//!   net) and `.P` (5.6.14, pad: part and pin). Subsection numbers from memory; 5.6.10 and
+//!   5.6.13 are also the numbers the gerber_parser crate cites for revision 2024.05.
 //!
 //! Copper is positive (dark = copper). Solder mask files are negative in the sense of
 //! 5.6 `.FilePolarity`: what they draw is where the mask is absent, the openings. Each
