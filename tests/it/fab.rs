@@ -90,6 +90,8 @@ struct Flash {
     /// Extent of the aperture (width, height) and its kind.
     size: (f64, f64),
     kind: &'static str,
+    /// Corner radius of a rounded rectangle (its macro's corner circles).
+    corner: Option<f64>,
     pin: Option<(String, String)>,
     net: Option<String>,
 }
@@ -124,14 +126,15 @@ fn value(d: &MacroDecimal) -> f64 {
 fn extent(
     ap: &Aperture,
     macros: &BTreeMap<String, Vec<MacroContent>>,
-) -> ((f64, f64), &'static str) {
+) -> ((f64, f64), &'static str, Option<f64>) {
     match ap {
-        Aperture::Circle(c) => ((c.diameter, c.diameter), "circle"),
-        Aperture::Rectangle(r) => ((r.x, r.y), "rectangle"),
-        Aperture::Obround(r) => ((r.x, r.y), "obround"),
+        Aperture::Circle(c) => ((c.diameter, c.diameter), "circle", None),
+        Aperture::Rectangle(r) => ((r.x, r.y), "rectangle", None),
+        Aperture::Obround(r) => ((r.x, r.y), "obround", None),
         Aperture::Macro(name, None) => {
             let (mut x0, mut y0, mut x1, mut y1) = (f64::MAX, f64::MAX, f64::MIN, f64::MIN);
             let mut circles = 0;
+            let mut corner = f64::NAN;
             for c in &macros[name] {
                 let (cx, cy, hw, hh) = match c {
                     MacroContent::CenterLine(l) => {
@@ -146,6 +149,7 @@ fn extent(
                     MacroContent::Circle(c) => {
                         circles += 1;
                         let r = value(&c.diameter) / 2.0;
+                        corner = r;
                         (value(&c.center.0), value(&c.center.1), r, r)
                     }
                     MacroContent::Comment(_) => continue,
@@ -157,7 +161,7 @@ fn extent(
                 y1 = y1.max(cy + hh);
             }
             assert_eq!(circles, 4, "a rounded rectangle has four corner circles");
-            ((x1 - x0, y1 - y0), "rounded")
+            ((x1 - x0, y1 - y0), "rounded", Some(corner))
         }
         other => panic!("unexpected aperture {other:?}"),
     }
@@ -239,11 +243,12 @@ fn read_gerber(text: &str) -> Picture {
                 match op {
                     Operation::Move(_) => {}
                     Operation::Flash(_) => {
-                        let (size, kind) = extent(ap, &macros);
+                        let (size, kind, corner) = extent(ap, &macros);
                         pic.flashes.push(Flash {
                             at,
                             size,
                             kind,
+                            corner,
                             pin: pin.clone(),
                             net: net.clone(),
                         });
@@ -361,6 +366,11 @@ fn copper_layers_read_back_as_the_board() {
                 "{key:?}: {got:?} vs {expect:?}"
             );
             assert_eq!(fl.kind, kind_of(*shape, *size), "{key:?}");
+            if *shape == PadShape::RoundRect {
+                // Corners rounded to 25 % of the smaller side (src/model/footprint.rs).
+                let r = fl.corner.unwrap();
+                assert!(close(r, 0.25 * size.0.min(size.1)), "{key:?}: corner {r}");
+            }
         }
         // Every pad on a net carries the net's name.
         for (ni, pins) in d.net_pins.iter().enumerate() {
@@ -503,6 +513,15 @@ fn mask_openings_are_the_pads_grown_by_the_expansion() {
                 fl.pin,
                 fl.size
             );
+            if *shape == PadShape::RoundRect {
+                // The outline grown by e keeps its corner centres: radius r + e.
+                let r = fl.corner.unwrap();
+                assert!(
+                    close(r, 0.25 * size.0.min(size.1) + 0.07),
+                    "{:?}: corner {r}",
+                    fl.pin
+                );
+            }
         }
         // The unplated mounting holes (H1, H2, 3.2 mm) get openings on both sides; vias
         // are tented.
