@@ -912,6 +912,46 @@ fn export_writes_every_file_and_nothing_else() {
         count("outline", &["line"]),
         d.board.outline.vertices().len()
     );
+    // Pads sit where the board has them: the board polygon's first point (the outline's
+    // first vertex) fixes the offset of the SVG frame (y down, in mm).
+    let num = |n: &roxmltree::Node, a: &str| n.attribute(a).unwrap().parse::<f64>().unwrap();
+    let first = doc
+        .descendants()
+        .find(|n| n.attribute("class") == Some("board"))
+        .and_then(|n| n.attribute("points"))
+        .and_then(|p| p.split(' ').next())
+        .and_then(|p| p.split_once(','))
+        .map(|(x, y)| (x.parse::<f64>().unwrap(), y.parse::<f64>().unwrap()))
+        .expect("the board polygon");
+    let v0 = d.board.outline.vertices()[0];
+    let to_board_mm = |x: f64, y: f64| Point::new(v0.x + (x - first.0), v0.y - (y - first.1));
+    let mut centres: Vec<Point> = Vec::new();
+    for n in doc
+        .descendants()
+        .filter(|n| matches!(n.attribute("class"), Some("pad-top" | "pad-bottom")))
+    {
+        centres.push(match n.tag_name().name() {
+            "rect" => to_board_mm(
+                num(&n, "x") + num(&n, "width") / 2.0,
+                num(&n, "y") + num(&n, "height") / 2.0,
+            ),
+            _ => to_board_mm(num(&n, "cx"), num(&n, "cy")),
+        });
+    }
+    // The SVG writes 4 decimals (0.1 micrometre).
+    for (part, fp) in d.board.parts.iter().zip(&d.footprints) {
+        for pad in &fp.pads {
+            let at = to_board(pad.at, part.at.unwrap(), part.quarter(), part.side);
+            assert!(
+                centres
+                    .iter()
+                    .any(|c| (c.x - at.x).abs() < 2e-4 && (c.y - at.y).abs() < 2e-4),
+                "{}.{} at {at:?} is not drawn",
+                part.reference,
+                pad.number
+            );
+        }
+    }
 
     // Again: the files are replaced, nothing new appears.
     let again = lehr_cmd()
