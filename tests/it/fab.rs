@@ -92,6 +92,8 @@ struct Flash {
     kind: &'static str,
     /// Corner radius of a rounded rectangle (its macro's corner circles).
     corner: Option<f64>,
+    /// The `.AperFunction` the aperture was defined under, as gerber-types names it.
+    function: String,
     pin: Option<(String, String)>,
     net: Option<String>,
 }
@@ -102,6 +104,7 @@ struct Draw {
     from: Point,
     to: Point,
     width: f64,
+    function: String,
     net: Option<String>,
 }
 
@@ -180,6 +183,9 @@ fn read_gerber(text: &str) -> Picture {
     let mut pic = Picture::default();
     let mut macros = BTreeMap::new();
     let mut apertures: BTreeMap<i32, Aperture> = BTreeMap::new();
+    // Aperture attributes in force when each aperture is defined (specification 5.3).
+    let mut functions: BTreeMap<i32, String> = BTreeMap::new();
+    let mut function = String::new();
     let mut current: Option<i32> = None;
     let mut point = (None::<f64>, None::<f64>);
     let mut pin = None;
@@ -196,6 +202,7 @@ fn read_gerber(text: &str) -> Picture {
                     assert!(macros.contains_key(name), "macro {name} defined before use");
                 }
                 apertures.insert(d.code, d.aperture.clone());
+                functions.insert(d.code, function.clone());
             }
             Command::ExtendedCode(ExtendedCode::FileAttribute(a)) => {
                 let s = format!("{a:?}");
@@ -207,6 +214,12 @@ fn read_gerber(text: &str) -> Picture {
                     pic.software = s;
                 }
             }
+            Command::ExtendedCode(ExtendedCode::ApertureAttribute(a)) => {
+                function = format!("{a:?}");
+            }
+            Command::ExtendedCode(ExtendedCode::DeleteAttribute(
+                AttributeDeletionCriterion::SingleApertureAttribute(_),
+            )) => function.clear(),
             Command::ExtendedCode(ExtendedCode::ObjectAttribute(a)) => match a {
                 ObjectAttribute::Pin(p) => pin = Some((p.refdes.clone(), p.name.clone())),
                 ObjectAttribute::Net(Net::Connected(n)) => net = n.first().cloned(),
@@ -249,6 +262,7 @@ fn read_gerber(text: &str) -> Picture {
                             size,
                             kind,
                             corner,
+                            function: functions[&current.unwrap()].clone(),
                             pin: pin.clone(),
                             net: net.clone(),
                         });
@@ -261,6 +275,7 @@ fn read_gerber(text: &str) -> Picture {
                             from: Point::new(before.0.unwrap(), before.1.unwrap()),
                             to: at,
                             width: c.diameter,
+                            function: functions[&current.unwrap()].clone(),
                             net: net.clone(),
                         });
                     }
@@ -366,6 +381,18 @@ fn copper_layers_read_back_as_the_board() {
                 "{key:?}: {got:?} vs {expect:?}"
             );
             assert_eq!(fl.kind, kind_of(*shape, *size), "{key:?}");
+            let th = d.footprints[d.part_id(&key.0).unwrap().index()]
+                .pads
+                .iter()
+                .find(|p| p.number == key.1)
+                .unwrap()
+                .is_through_hole();
+            let f = if th {
+                "ComponentPad"
+            } else {
+                "SmdPad(CopperDefined)"
+            };
+            assert!(fl.function.contains(f), "{key:?}: {}", fl.function);
             if *shape == PadShape::RoundRect {
                 // Corners rounded to 25 % of the smaller side (src/model/footprint.rs).
                 let r = fl.corner.unwrap();
@@ -386,6 +413,12 @@ fn copper_layers_read_back_as_the_board() {
             }
         }
 
+        assert!(
+            pic.flashes
+                .iter()
+                .filter(|f| f.pin.is_none())
+                .all(|f| f.function.contains("ViaPad"))
+        );
         // Vias: the remaining flashes, one per via, with the via's diameter.
         let mut vias: Vec<(i64, i64, i64)> = pic
             .flashes
@@ -442,6 +475,7 @@ fn copper_layers_read_back_as_the_board() {
             );
             assert!(close(dr.width, *w));
             assert_eq!(dr.net.as_deref(), Some(*net));
+            assert!(dr.function.contains("Conductor"), "{}", dr.function);
         }
     }
 }
@@ -541,6 +575,7 @@ fn the_outline_is_one_closed_profile() {
         pic.file_function
     );
     assert!(pic.flashes.is_empty());
+    assert!(pic.draws.iter().all(|dr| dr.function.contains("Profile")));
     let v = d.board.outline.vertices();
     assert_eq!(pic.draws.len(), v.len());
     for (i, dr) in pic.draws.iter().enumerate() {
