@@ -116,9 +116,14 @@ pub fn export_cmd(a: ExportArgs) -> Result<ExitCode> {
     }
 
     let warnings = fab::warnings(&design);
+    // Hazardous voltages or high currents: the usual caution, before the files go out.
+    let caution = crate::app::svg::caution(&design);
     if !a.json {
         for w in &warnings {
             eprintln!("lehr: warning: {w}");
+        }
+        if let Some(c) = &caution {
+            eprintln!("lehr: {c}");
         }
     }
     if let Some(dir) = &a.gerber {
@@ -134,6 +139,7 @@ pub fn export_cmd(a: ExportArgs) -> Result<ExitCode> {
             json!({
                 "written": files.iter().map(|(p, _)| p.display().to_string()).collect::<Vec<_>>(),
                 "warnings": warnings,
+                "caution": caution,
             })
         );
     } else {

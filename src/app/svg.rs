@@ -23,6 +23,9 @@ use lehr::model::{Design, Point, Rect};
 use super::export;
 use super::scene::{self, Geometry, Marks, Palette, Pen, Static};
 
+/// The window's safety caution, for `lehr export` to show beside the files it writes.
+pub(crate) use super::caution::caution;
+
 /// Pixels per millimetre the scene's pixel sizes are taken at (the PNG export's scale).
 pub const PX_PER_MM: f64 = 40.0;
 

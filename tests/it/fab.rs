@@ -1063,3 +1063,27 @@ fn unrouted_boards_export_with_a_warning_and_place_writes_its_log() {
     );
     assert!(dir.path().join("g/p-copper-top.gbr").is_file());
 }
+
+#[test]
+fn hazardous_boards_export_with_the_caution() {
+    // Above 30 V (the usual extra-low-voltage limit for dry conditions, common practice)
+    // the exports carry the caution that defers to IPC-2221, local codes and review.
+    let mut board = fixture().design.board.clone();
+    board.classes[0].voltage = Some(230.0);
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("mains.board.ron");
+    lehr::io::save_board(&path, &board).unwrap();
+    let out = lehr_cmd()
+        .arg("export")
+        .arg(&path)
+        .args(["--drill", "m.drl"])
+        .current_dir(dir.path())
+        .output()
+        .unwrap();
+    assert!(out.status.success());
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert!(
+        err.contains("IPC-2221") && err.contains("licensed"),
+        "{err}"
+    );
+}
