@@ -988,6 +988,61 @@ fn export_writes_every_file_and_nothing_else() {
         }
     }
 
+    // Rendered by an independent SVG renderer (resvg), the picture shows the pad colour at
+    // the centre of every top-side surface-mount pad and the hole colour at the centre of
+    // every through-hole pad: the stacking puts pads over tracks and holes over pads.
+    let tree = resvg::usvg::Tree::from_str(&svg, &resvg::usvg::Options::default()).unwrap();
+    let view_w: f64 = root
+        .attribute("viewBox")
+        .unwrap()
+        .split(' ')
+        .nth(2)
+        .unwrap()
+        .parse()
+        .unwrap();
+    let k = 20.0 / (f64::from(tree.size().width()) / view_w); // 20 pixels per mm
+    let (w, h) = (
+        (f64::from(tree.size().width()) * k).ceil() as u32,
+        (f64::from(tree.size().height()) * k).ceil() as u32,
+    );
+    let mut pix = resvg::tiny_skia::Pixmap::new(w, h).unwrap();
+    resvg::render(
+        &tree,
+        resvg::tiny_skia::Transform::from_scale(k as f32, k as f32),
+        &mut pix.as_mut(),
+    );
+    let colour_at = |p: Point| {
+        let ux = first.0 + (p.x - v0.x);
+        let uy = first.1 - (p.y - v0.y);
+        let c = pix
+            .pixel((ux * 20.0) as u32, (uy * 20.0) as u32)
+            .unwrap()
+            .demultiply();
+        format!("#{:02x}{:02x}{:02x}", c.red(), c.green(), c.blue())
+    };
+    let fill_of = |class: &str| {
+        doc.descendants()
+            .find(|n| n.attribute("class") == Some(class))
+            .and_then(|n| n.attribute("fill"))
+            .unwrap()
+            .to_string()
+    };
+    let (pad_top, hole) = (fill_of("pad-top"), fill_of("drill"));
+    let mut checked = 0;
+    for (part, fp) in d.board.parts.iter().zip(&d.footprints) {
+        for pad in &fp.pads {
+            let at = to_board(pad.at, part.at.unwrap(), part.quarter(), part.side);
+            let want = match pad.kind {
+                PadKind::ThroughHole { .. } => &hole,
+                PadKind::Smd if part.side == Side::Top => &pad_top,
+                PadKind::Smd => continue,
+            };
+            assert_eq!(&colour_at(at), want, "{}.{}", part.reference, pad.number);
+            checked += 1;
+        }
+    }
+    assert!(checked > 20);
+
     // Again: the files are replaced, nothing new appears.
     let again = lehr_cmd()
         .arg("export")
