@@ -183,7 +183,8 @@ pub fn board_pads(design: &Design) -> Vec<BoardPad> {
 }
 
 /// What a fabrication export should tell the user before they send the files away:
-/// unplaced parts (left out of every file) and a board without copper (pads only).
+/// unplaced parts (left out of the fabrication files) and a board without copper (pads
+/// only).
 pub fn warnings(design: &Design) -> Vec<String> {
     let mut out = Vec::new();
     let unplaced: Vec<&str> = design
@@ -195,7 +196,8 @@ pub fn warnings(design: &Design) -> Vec<String> {
         .collect();
     if !unplaced.is_empty() {
         out.push(format!(
-            "{} unplaced part{} left out of every file: {}",
+            "{} unplaced part{} left out of the fabrication files (pictures draw them at the \
+             origin): {}",
             unplaced.len(),
             if unplaced.len() == 1 { "" } else { "s" },
             unplaced.join(", ")

@@ -1142,3 +1142,38 @@ fn hazardous_boards_export_with_the_caution() {
         "{err}"
     );
 }
+
+#[test]
+fn unplaced_parts_are_left_out_and_named() {
+    // The sample as written: only the four locked parts have positions.
+    let path = Path::new(env!("CARGO_MANIFEST_DIR")).join("sample-boards/led-dimmer.board.ron");
+    let d = lehr::io::load_board(&path).unwrap();
+    let placed: Vec<&str> = d
+        .board
+        .parts
+        .iter()
+        .filter(|p| p.at.is_some())
+        .map(|p| p.reference.as_str())
+        .collect();
+    assert_eq!(placed, ["J1", "RV1", "H1", "H2"]);
+    let w = lehr::fab::warnings(&d);
+    assert!(
+        w.iter()
+            .any(|w| w.starts_with("6 unplaced parts") && w.ends_with("U1, C1, C2, D1, D2, Q1")),
+        "{w:?}"
+    );
+    let pic = read_gerber(&gerber(&d, GerberLayer::CopperTop, &FabOptions::default()).unwrap());
+    let refs: BTreeSet<String> = pic
+        .flashes
+        .iter()
+        .filter_map(|f| f.pin.as_ref().map(|p| p.0.clone()))
+        .collect();
+    assert_eq!(refs, ["J1", "RV1"].map(String::from).into());
+    let rows = centroid::centroids(&d);
+    assert_eq!(
+        rows.iter()
+            .map(|r| r.reference.as_str())
+            .collect::<Vec<_>>(),
+        ["J1", "RV1"]
+    );
+}
