@@ -49,6 +49,8 @@ enum Command {
     Width(crate::copper_cmds::WidthArgs),
     /// Turn a netlist (CSV/TSV connection list or EDIF 2 0 0) into a board file.
     Import(crate::import_cmd::ImportArgs),
+    /// Write pictures and fabrication files (Gerber, NC drill, centroid) of a board.
+    Export(crate::export_cmd::ExportArgs),
 }
 
 #[derive(Args, Debug)]
@@ -81,6 +83,9 @@ struct PlaceArgs {
     /// Print one JSON object with the results instead of text.
     #[arg(long)]
     json: bool,
+    /// Also write the run log (one CSV row per annealing stage) here.
+    #[arg(long, value_name = "FILE")]
+    log: Option<PathBuf>,
 }
 
 #[derive(Args, Debug)]
@@ -171,6 +176,7 @@ pub fn run() -> Result<ExitCode> {
         Some(Command::Check(a)) => crate::copper_cmds::check_cmd(a),
         Some(Command::Width(a)) => crate::copper_cmds::width_cmd(a),
         Some(Command::Import(a)) => crate::import_cmd::import_cmd(a),
+        Some(Command::Export(a)) => crate::export_cmd::export_cmd(a),
     }
 }
 
@@ -204,6 +210,9 @@ fn place_cmd(a: PlaceArgs) -> Result<ExitCode> {
     }
     let placed = run_place(&design, &opts, !a.json)?;
     lehr::io::save_board(&out, &placed.board)?;
+    if let Some(log) = &a.log {
+        lehr::io::write_file(log, lehr::fab::runlog::run_log(&placed.history).as_bytes())?;
+    }
     if a.json {
         let r = &placed.report;
         let v = json!({

@@ -8,11 +8,13 @@
 //!   annealer;
 //! - [`route`]: the grid router (A* with rip-up and reroute by negotiated congestion);
 //! - [`rules`]: the design-rule checker and the IPC-2221 conductor tables;
+//! - [`fab`]: fabrication outputs (Gerber, NC drill, centroid, run log), as text;
 //! - [`engine`]: the worker thread a user interface drives by messages.
 //!
 //! See docs/ARCHITECTURE.md for the map of modules and the invariants.
 
 pub mod engine;
+pub mod fab;
 pub mod io;
 pub mod model;
 pub mod place;

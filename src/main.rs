@@ -6,6 +6,7 @@ mod bench;
 mod cli;
 mod copper_cmds;
 mod import_cmd;
+mod export_cmd;
 
 use std::process::ExitCode;
 

@@ -16,6 +16,7 @@ mod files;
 mod history;
 mod plots;
 mod scene;
+pub(crate) mod svg;
 mod undo;
 
 #[cfg(test)]

@@ -202,6 +202,16 @@ pub fn save_board(path: impl AsRef<Path>, board: &Board) -> Result<(), SaveError
     })
 }
 
+/// Writes any file atomically, as [`save_board`] does (for the fabrication exports and
+/// other outputs): on any error the old file, if any, is untouched.
+pub fn write_file(path: impl AsRef<Path>, contents: &[u8]) -> Result<(), SaveError> {
+    let path = path.as_ref();
+    atomic::write_atomically(path, contents).map_err(|cause| SaveError::Io {
+        path: path.to_path_buf(),
+        cause,
+    })
+}
+
 fn read(path: &Path) -> Result<Vec<u8>, LoadError> {
     std::fs::read(path).map_err(|cause| LoadError::Io {
         path: path.to_path_buf(),

@@ -4,6 +4,9 @@
 /// Hand-placed test boards and a synthetic board generator.
 mod boards;
 mod engine;
+/// Fabrication exports read back by outside readers (gerber_parser, roxmltree) and the
+/// `lehr export` command.
+mod fab;
 mod footprints;
 /// Netlist import: RFC 4180 connection lists, EDIF 2 0 0, footprint names.
 mod import;

@@ -1,0 +1,151 @@
+//! `lehr export`: pictures and fabrication files of a board. The library makes the text
+//! (`lehr::fab`), the window's scene code makes the pictures (`app::svg`); this writes
+//! each file atomically and touches nothing it was not asked to write.
+
+use std::path::{Path, PathBuf};
+use std::process::ExitCode;
+
+use anyhow::{Context, Result, anyhow, bail};
+use clap::Args;
+use serde_json::json;
+
+use lehr::fab::gerber::{GerberLayer, gerber};
+use lehr::fab::{self, FabOptions};
+
+#[derive(Args, Debug)]
+pub struct ExportArgs {
+    /// The board file (placed, and routed for copper).
+    pub board: PathBuf,
+    /// Write an SVG picture of the board here.
+    #[arg(long, value_name = "FILE")]
+    pub svg: Option<PathBuf>,
+    /// Write a PNG picture of the board here.
+    #[arg(long, value_name = "FILE")]
+    pub png: Option<PathBuf>,
+    /// Write the Gerber files into this folder (made if missing): NAME-copper-top.gbr,
+    /// NAME-copper-bottom.gbr, NAME-mask-top.gbr, NAME-mask-bottom.gbr, NAME-outline.gbr.
+    #[arg(long, value_name = "DIR")]
+    pub gerber: Option<PathBuf>,
+    /// Write the NC drill program (plated and non-plated sections) here.
+    #[arg(long, value_name = "FILE")]
+    pub drill: Option<PathBuf>,
+    /// Write the centroid (pick-and-place) CSV here.
+    #[arg(long, value_name = "FILE")]
+    pub centroid: Option<PathBuf>,
+    /// Solder mask opening beyond each pad, per side, mm.
+    #[arg(long, default_value_t = fab::DEFAULT_MASK_EXPANSION, value_name = "MM")]
+    pub mask_expansion: f64,
+    /// Print one JSON object: the files written and the warnings.
+    #[arg(long)]
+    pub json: bool,
+}
+
+/// The name Gerber files start with: the board file's name without `.board.ron` (or
+/// `.ron`), with anything but letters, digits, `.`, `_` and `-` made `_`.
+pub fn file_stem(board: &Path) -> String {
+    let file = board
+        .file_name()
+        .and_then(|f| f.to_str())
+        .unwrap_or("board");
+    let stem = file
+        .strip_suffix(".board.ron")
+        .or_else(|| file.strip_suffix(".ron"))
+        .unwrap_or(file);
+    let s: String = stem
+        .chars()
+        .map(|c| {
+            if c.is_ascii_alphanumeric() || matches!(c, '.' | '_' | '-') {
+                c
+            } else {
+                '_'
+            }
+        })
+        .collect();
+    if s.is_empty() { "board".into() } else { s }
+}
+
+pub fn export_cmd(a: ExportArgs) -> Result<ExitCode> {
+    if a.svg.is_none()
+        && a.png.is_none()
+        && a.gerber.is_none()
+        && a.drill.is_none()
+        && a.centroid.is_none()
+    {
+        bail!(
+            "nothing to export: give at least one of --svg, --png, --gerber, --drill, --centroid"
+        );
+    }
+    let design = lehr::io::load_board(&a.board)?;
+    let opts = FabOptions {
+        mask_expansion: a.mask_expansion,
+        ..FabOptions::default()
+    };
+    opts.check()?;
+
+    // Make every file's contents first: an error then writes nothing at all.
+    let mut files: Vec<(PathBuf, Vec<u8>)> = Vec::new();
+    if let Some(p) = &a.svg {
+        files.push((p.clone(), crate::app::svg::board_svg(&design).into_bytes()));
+    }
+    if let Some(p) = &a.png {
+        let bytes = crate::app::svg::board_png(&design)
+            .map_err(|e| anyhow!("cannot draw the PNG picture: {e}"))?;
+        files.push((p.clone(), bytes));
+    }
+    if let Some(dir) = &a.gerber {
+        let stem = file_stem(&a.board);
+        for layer in GerberLayer::ALL {
+            let text = gerber(&design, layer, &opts)?;
+            files.push((
+                dir.join(format!("{stem}-{}.gbr", layer.name())),
+                text.into_bytes(),
+            ));
+        }
+    }
+    if let Some(p) = &a.drill {
+        files.push((p.clone(), fab::drill::drill(&design)?.into_bytes()));
+    }
+    if let Some(p) = &a.centroid {
+        files.push((p.clone(), fab::centroid::centroid_csv(&design).into_bytes()));
+    }
+    let names: Vec<&PathBuf> = files.iter().map(|(p, _)| p).collect();
+    for (i, p) in names.iter().enumerate() {
+        if names[..i].contains(p) {
+            bail!("{} is named twice", p.display());
+        }
+    }
+
+    let warnings = fab::warnings(&design);
+    // Hazardous voltages or high currents: the usual caution, before the files go out.
+    let caution = crate::app::svg::caution(&design);
+    if !a.json {
+        for w in &warnings {
+            eprintln!("lehr: warning: {w}");
+        }
+        if let Some(c) = &caution {
+            eprintln!("lehr: {c}");
+        }
+    }
+    if let Some(dir) = &a.gerber {
+        std::fs::create_dir_all(dir)
+            .with_context(|| format!("cannot make the folder {}", dir.display()))?;
+    }
+    for (path, bytes) in &files {
+        lehr::io::write_file(path, bytes)?;
+    }
+    if a.json {
+        println!(
+            "{}",
+            json!({
+                "written": files.iter().map(|(p, _)| p.display().to_string()).collect::<Vec<_>>(),
+                "warnings": warnings,
+                "caution": caution,
+            })
+        );
+    } else {
+        for (p, _) in &files {
+            println!("wrote {}", p.display());
+        }
+    }
+    Ok(ExitCode::SUCCESS)
+}
