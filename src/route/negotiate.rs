@@ -35,7 +35,9 @@ struct Pin {
     layers: Layers,
     /// Planar index of the grid point the pin is entered at.
     access: usize,
-    access_point: Point,
+    /// The stub: a polyline from the pad centre to the access point (just the centre
+    /// when the centre is a grid point).
+    stub: Vec<Point>,
 }
 
 /// A net to route.
@@ -233,7 +235,7 @@ impl<'a> Router<'a> {
                         pad: pad.prim,
                         layers: pad.layers,
                         access: usize::MAX,
-                        access_point: pad.at,
+                        stub: vec![pad.at],
                     }),
                     Some(_) => {
                         plan.problem
@@ -284,16 +286,18 @@ impl<'a> Router<'a> {
             for pin in &mut plan.pins {
                 let net = plan.index as u32;
                 match fixed.choose_access(&lat, &pin.pad, pin.centre, pin.layers, net, rule) {
-                    Some((i, p)) => {
+                    Some((i, stub)) => {
                         pin.access = i;
-                        pin.access_point = p;
-                        fixed.add(Obstacle {
-                            prim: Prim::track(pin.centre, p, rule.width),
-                            layers: pin.layers,
-                            owner: net,
-                            clearance: rule.clearance,
-                            smd_pad: false,
-                        });
+                        for w in stub.windows(2) {
+                            fixed.add(Obstacle {
+                                prim: Prim::track(w[0], w[1], rule.width),
+                                layers: pin.layers,
+                                owner: net,
+                                clearance: rule.clearance,
+                                smd_pad: false,
+                            });
+                        }
+                        pin.stub = stub;
                     }
                     None => {
                         // Does the track fit at the pad centre at all, off the grid?
@@ -838,7 +842,7 @@ impl<'a> Router<'a> {
                 r.paths.iter().flatten().copied().collect()
             };
             for pin in &plan.pins {
-                if dist(pin.centre, pin.access_point) < 1e-9 {
+                if pin.stub.len() < 2 {
                     continue;
                 }
                 for l in 0..2 {
@@ -849,7 +853,7 @@ impl<'a> Router<'a> {
                             net: name.clone(),
                             layer: layer_of(l),
                             width,
-                            points: vec![pin.centre, pin.access_point],
+                            points: pin.stub.clone(),
                         });
                     }
                 }
