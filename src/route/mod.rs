@@ -72,7 +72,7 @@ impl Default for RouteOptions {
             vias_in_pads: false,
             bend_cost: 0.5,
             wrong_way_cost: 0.3,
-            max_passes: 30,
+            max_passes: 60,
             present_factor: 0.5,
             present_growth: 1.6,
             history_factor: 0.3,
