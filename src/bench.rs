@@ -1,4 +1,5 @@
-//! `lehr bench`: speed and quality of placement on generated boards. The targets and the
+//! `lehr bench`: speed and quality of placement on generated boards, and routing of the
+//! placed sample boards. The targets and the
 //! figures measured on the reference machine are in docs/performance.md.
 
 use std::process::ExitCode;
@@ -166,10 +167,85 @@ pub fn run(args: &BenchArgs) -> Result<ExitCode> {
             out.insert(format!("anneal_over_descent_grid{n}"), json!(q));
         }
     }
+    route_samples(args, &mut out)?;
     if args.json {
         println!("{}", Value::Object(out));
     }
     Ok(ExitCode::SUCCESS)
+}
+
+/// The sample boards, built in so the bench runs from any directory.
+const ROUTE_SAMPLES: [(&str, &str); 4] = [
+    (
+        "led_dimmer",
+        include_str!("../sample-boards/led-dimmer.board.ron"),
+    ),
+    (
+        "soil_logger",
+        include_str!("../sample-boards/soil-logger.board.ron"),
+    ),
+    (
+        "signal_driver",
+        include_str!("../sample-boards/signal-driver.board.ron"),
+    ),
+    (
+        "audio_preamp",
+        include_str!("../sample-boards/audio-preamp.board.ron"),
+    ),
+];
+
+/// Routing: each sample board placed by `lehr place` (default schedule, seeds 1 to 3; seed
+/// 1 only with `--quick`), then routed with the default options and checked. Per board:
+/// `route_<board>_seconds` (the slowest seed), `route_<board>_routed_fraction` (the worst
+/// seed), `route_<board>_violations` (the most, every kind) and `route_<board>_seeds`.
+fn route_samples(args: &BenchArgs, out: &mut serde_json::Map<String, Value>) -> Result<()> {
+    use std::sync::atomic::AtomicBool;
+    let seeds: &[u64] = if args.quick { &[1] } else { &[1, 2, 3] };
+    for (name, source) in ROUTE_SAMPLES {
+        let design = lehr::io::parse_board(source, name)?;
+        let (mut worst_seconds, mut worst_fraction, mut most_violations) = (0.0f64, 1.0f64, 0);
+        for &seed in seeds {
+            let opts = AnnealOptions {
+                seed,
+                ..AnnealOptions::default()
+            };
+            let placed = place::place(&design, &opts, |_| true)?;
+            let placed = resolve(placed.board).map_err(problems)?;
+            let cancel = AtomicBool::new(false);
+            let r = lehr::route::route(
+                &placed,
+                &lehr::route::RouteOptions::default(),
+                &cancel,
+                &mut |_| {},
+            )?;
+            let mut board = placed.board.clone();
+            board.copper = r.copper.clone();
+            let routed = resolve(board).map_err(problems)?;
+            let violations = lehr::rules::check(&routed).len();
+            let fraction = r.routed as f64 / r.nets.max(1) as f64;
+            if !args.json {
+                println!(
+                    "route {name}, seed {seed}: {} of {} nets, {} vias, {:.0} mm, {} passes, \
+                     {:.2} s, {violations} violations",
+                    r.routed, r.nets, r.vias, r.track_length_mm, r.passes, r.seconds
+                );
+                for u in &r.unrouted {
+                    println!("    not routed: {}: {}", u.net, u.why);
+                }
+            }
+            worst_seconds = worst_seconds.max(r.seconds);
+            worst_fraction = worst_fraction.min(fraction);
+            most_violations = most_violations.max(violations);
+        }
+        out.insert(format!("route_{name}_seconds"), json!(worst_seconds));
+        out.insert(
+            format!("route_{name}_routed_fraction"),
+            json!(worst_fraction),
+        );
+        out.insert(format!("route_{name}_violations"), json!(most_violations));
+        out.insert(format!("route_{name}_seeds"), json!(seeds));
+    }
+    Ok(())
 }
 
 fn problems(ps: Vec<lehr::model::Problem>) -> anyhow::Error {

@@ -26,6 +26,8 @@ pub(crate) const WALL: u32 = u32::MAX - 1;
 /// A gap this much below its need still counts as clear: far below the checker's own
 /// tolerance, so rounding can never turn a routed track into a violation.
 pub(crate) const SLACK: f64 = 1e-9;
+/// Pins are entered at grid points within this many grid pitches of their pad.
+const ACCESS_REACH: f64 = 2.0;
 
 /// Edge kinds stored per grid point, each from the point to a neighbour.
 pub(crate) const EAST: usize = 0;
@@ -499,9 +501,30 @@ impl<'a> Fixed<'a> {
         })
     }
 
-    /// The grid point a pin is entered at: the one nearest the pad centre whose stub (a
-    /// track from the centre to the point) is clear ([`Fixed::stub_is_clear`]). Returns
-    /// the planar index and the point.
+    /// Whether a stub (a polyline from the pad centre) is clear, segment by segment
+    /// ([`Fixed::stub_is_clear`]).
+    pub fn polyline_is_clear(
+        &mut self,
+        points: &[Point],
+        layers: Layers,
+        net: u32,
+        rule: ClassRule,
+    ) -> bool {
+        if points.len() == 1 {
+            return self.stub_is_clear(points[0], points[0], layers, net, rule);
+        }
+        points
+            .windows(2)
+            .all(|w| self.stub_is_clear(w[0], w[1], layers, net, rule))
+    }
+
+    /// How a pin is entered: the stub, a polyline from the pad centre to a grid point, and
+    /// that point's planar index. Candidates are the grid points near the pad, each reached
+    /// straight or with one bend (first along x, or first along y, so an off-grid pad of a
+    /// fine-pitch part leaves along its own axis and jogs onto the grid once clear of its
+    /// neighbours); the shortest clear stub wins, ties broken by the point's index. A stub
+    /// is clear when every segment is ([`Fixed::stub_is_clear`]) and a track can leave the
+    /// grid point by at least one unit step.
     pub fn choose_access(
         &mut self,
         lat: &Lattice,
@@ -510,24 +533,43 @@ impl<'a> Fixed<'a> {
         layers: Layers,
         net: u32,
         rule: ClassRule,
-    ) -> Option<(usize, Point)> {
-        let area = pad.bounds().inflate(lat.pitch);
+    ) -> Option<(usize, Vec<Point>)> {
+        let area = pad.bounds().inflate(ACCESS_REACH * lat.pitch);
         let (x0, x1, y0, y1) = lat.range(&area)?;
-        let mut candidates: Vec<(f64, usize, Point)> = Vec::new();
+        let mut candidates: Vec<(f64, usize, u8, Point)> = Vec::new();
         for y in y0..=y1 {
             for x in x0..=x1 {
                 let p = lat.point(x, y);
-                candidates.push((
-                    crate::rules::geometry::dist(p, centre),
-                    y * lat.dims.w + x,
-                    p,
-                ));
+                let i = y * lat.dims.w + x;
+                let (dx, dy) = ((p.x - centre.x).abs(), (p.y - centre.y).abs());
+                candidates.push((crate::rules::geometry::dist(p, centre), i, 0, p));
+                if dx > 1e-9 && dy > 1e-9 {
+                    candidates.push((dx + dy, i, 1, p));
+                    candidates.push((dx + dy, i, 2, p));
+                }
             }
         }
-        candidates.sort_by(|a, b| a.0.total_cmp(&b.0).then(a.1.cmp(&b.1)));
-        candidates
-            .into_iter()
-            .find(|&(_, _, p)| self.stub_is_clear(centre, p, layers, net, rule))
-            .map(|(_, i, p)| (i, p))
+        candidates.sort_by(|a, b| a.0.total_cmp(&b.0).then(a.1.cmp(&b.1)).then(a.2.cmp(&b.2)));
+        let steps = [(1.0, 0.0), (0.0, 1.0), (-1.0, 0.0), (0.0, -1.0)];
+        for (_, i, shape, p) in candidates {
+            let stub = match shape {
+                0 if p == centre => vec![centre],
+                0 => vec![centre, p],
+                1 => vec![centre, Point::new(p.x, centre.y), p],
+                _ => vec![centre, Point::new(centre.x, p.y), p],
+            };
+            if !self.polyline_is_clear(&stub, layers, net, rule) {
+                continue;
+            }
+            let exit = steps.iter().any(|&(sx, sy)| {
+                let q = Point::new(p.x + sx * lat.pitch, p.y + sy * lat.pitch);
+                lat.range(&Rect { min: q, max: q }).is_some()
+                    && self.stub_is_clear(p, q, layers, net, rule)
+            });
+            if exit {
+                return Some((i, stub));
+            }
+        }
+        None
     }
 }

@@ -7,13 +7,17 @@
 //! - `grid`: the fixed obstacles. Pads of other nets, copper keep-outs and the board edge
 //!   block every grid step whose track would come closer than half the track width plus
 //!   the clearance (per net class); the test is exact, not a rasterisation.
-//!   Through-hole pads block both layers, SMD pads only their side.
+//!   Through-hole pads block both layers, SMD pads only their side. Pins are entered by
+//!   stubs from the pad centre that may bend once onto the grid; vias may sit in a QFN's
+//!   exposed pad for its own net (thermal vias).
 //! - `negotiate`: multi-pin nets grow as a tree, each next pin joined to the nearest
 //!   copper the net already has by a multi-source A*. Nets then negotiate for space
 //!   (McMurchie and Ebeling, FPGA 1995; the cost form as recalled, from memory): a grid
 //!   point costs (base + history) x present congestion; the nets that share space are ripped up and rerouted, with the present
 //!   penalty growing each pass and the history of contested points remembered, until no
-//!   space is shared or the pass limit is reached. Nets still in conflict then give way one
+//!   space is shared or the pass limit is reached; when the count of nets in conflict stops
+//!   falling, negotiation starts afresh with those nets first (the history kept) and the
+//!   best attempt goes on. Nets still in conflict then give way one
 //!   by one and are rerouted with contested space forbidden, so the result never has two
 //!   nets too close; the nets that could not be finished are reported with the reason.
 //!
@@ -72,7 +76,7 @@ impl Default for RouteOptions {
             vias_in_pads: false,
             bend_cost: 0.5,
             wrong_way_cost: 0.3,
-            max_passes: 30,
+            max_passes: 60,
             present_factor: 0.5,
             present_growth: 1.6,
             history_factor: 0.3,

@@ -35,7 +35,9 @@ struct Pin {
     layers: Layers,
     /// Planar index of the grid point the pin is entered at.
     access: usize,
-    access_point: Point,
+    /// The stub: a polyline from the pad centre to the access point (just the centre
+    /// when the centre is a grid point).
+    stub: Vec<Point>,
 }
 
 /// A net to route.
@@ -69,6 +71,25 @@ impl Routed {
         !self.connected.is_empty() && self.connected.iter().all(|&c| c)
     }
 }
+
+/// Whether pad `k` of part `part` is the exposed (thermal) pad of a QFN, which may hold
+/// vias of its own net: thermal vias in an exposed pad are common practice (they carry
+/// heat and the ground connection to the other side).
+fn is_exposed_pad(design: &Design, part: usize, k: usize) -> bool {
+    match design.board.parts[part].footprint {
+        crate::model::FootprintSpec::Qfn {
+            pins,
+            thermal: Some(_),
+            ..
+        } => design.footprints[part].pads[k].number == (pins + 1).to_string(),
+        _ => false,
+    }
+}
+
+/// Most fresh starts of negotiation when it stalls.
+const RESTARTS: usize = 3;
+/// Passes without fewer nets in conflict after which negotiation starts afresh.
+const STALL_PASSES: usize = 6;
 
 /// Grid offsets within a reach (see the module documentation).
 fn disc_offsets(reach: f64, pitch: f64) -> Vec<(i32, i32)> {
@@ -200,7 +221,7 @@ impl<'a> Router<'a> {
                     owner: if hole { WALL } else { net.unwrap_or(WALL) },
                     clearance: net
                         .map_or(rules.clearance, |n| classes[class_of(n as usize)].clearance),
-                    smd_pad: pad.drill.is_none(),
+                    smd_pad: pad.drill.is_none() && !is_exposed_pad(design, pi, k),
                 });
             }
         }
@@ -233,7 +254,7 @@ impl<'a> Router<'a> {
                         pad: pad.prim,
                         layers: pad.layers,
                         access: usize::MAX,
-                        access_point: pad.at,
+                        stub: vec![pad.at],
                     }),
                     Some(_) => {
                         plan.problem
@@ -284,16 +305,18 @@ impl<'a> Router<'a> {
             for pin in &mut plan.pins {
                 let net = plan.index as u32;
                 match fixed.choose_access(&lat, &pin.pad, pin.centre, pin.layers, net, rule) {
-                    Some((i, p)) => {
+                    Some((i, stub)) => {
                         pin.access = i;
-                        pin.access_point = p;
-                        fixed.add(Obstacle {
-                            prim: Prim::track(pin.centre, p, rule.width),
-                            layers: pin.layers,
-                            owner: net,
-                            clearance: rule.clearance,
-                            smd_pad: false,
-                        });
+                        for w in stub.windows(2) {
+                            fixed.add(Obstacle {
+                                prim: Prim::track(w[0], w[1], rule.width),
+                                layers: pin.layers,
+                                owner: net,
+                                clearance: rule.clearance,
+                                smd_pad: false,
+                            });
+                        }
+                        pin.stub = stub;
                     }
                     None => {
                         // Does the track fit at the pad centre at all, off the grid?
@@ -670,50 +693,98 @@ impl<'a> Router<'a> {
         cancel: &AtomicBool,
         report: &mut dyn FnMut(&RouteProgress),
     ) -> RouteResult {
-        let order = self.order.clone();
+        let mut order = self.order.clone();
         report(&self.progress(RoutePhase::Preparing, 0, order.len(), 0));
         let mut cancelled = false;
+        // The attempt that left the fewest nets in conflict: (count, routes).
+        let mut best: Option<(usize, Vec<Routed>)> = None;
+        self.passes = 0;
 
-        // First pass: every net, in order.
-        self.passes = 1;
-        for (i, &k) in order.iter().enumerate() {
-            if cancel.load(Ordering::Relaxed) {
-                cancelled = true;
-                break;
-            }
-            self.route_net(k, false);
-            self.commit(k);
-            report(&self.progress(RoutePhase::Negotiating, i + 1, order.len(), 0));
-        }
-
-        // Rip up and reroute the nets in conflict until none are.
-        let mut conflicting = if cancelled {
-            Vec::new()
-        } else {
-            self.conflicting()
-        };
-        while !cancelled && !conflicting.is_empty() && self.passes < self.opts.max_passes {
-            for (_, points) in &conflicting {
-                for &n in points {
-                    let plane = self.lat.dims.plane();
-                    let (l, i) = (n as usize / plane, n as usize % plane);
-                    self.history[l][i] += self.opts.history_factor as f32;
+        for attempt in 0..=RESTARTS {
+            if attempt > 0 {
+                // Start again from nothing, the nets that were in conflict first; the
+                // history of contested space is kept.
+                for &k in &order {
+                    self.uncommit(k);
                 }
+                self.present_factor = self.opts.present_factor;
             }
-            self.present_factor *= self.opts.present_growth;
+            // First pass: every net, in order.
             self.passes += 1;
-            let nets: Vec<usize> = conflicting.iter().map(|c| c.0).collect();
-            for (i, &k) in nets.iter().enumerate() {
+            for (i, &k) in order.iter().enumerate() {
                 if cancel.load(Ordering::Relaxed) {
                     cancelled = true;
                     break;
                 }
-                self.uncommit(k);
                 self.route_net(k, false);
                 self.commit(k);
-                report(&self.progress(RoutePhase::Negotiating, i + 1, nets.len(), nets.len()));
+                report(&self.progress(RoutePhase::Negotiating, i + 1, order.len(), 0));
             }
-            conflicting = self.conflicting();
+
+            // Rip up and reroute the nets in conflict until none are, the pass limit is
+            // reached or the count of nets in conflict stops improving.
+            let mut conflicting = if cancelled {
+                Vec::new()
+            } else {
+                self.conflicting()
+            };
+            let (mut fewest, mut since) = (conflicting.len(), 0);
+            while !cancelled
+                && !conflicting.is_empty()
+                && self.passes < self.opts.max_passes
+                && since < STALL_PASSES
+            {
+                for (_, points) in &conflicting {
+                    for &n in points {
+                        let plane = self.lat.dims.plane();
+                        let (l, i) = (n as usize / plane, n as usize % plane);
+                        self.history[l][i] += self.opts.history_factor as f32;
+                    }
+                }
+                self.present_factor *= self.opts.present_growth;
+                self.passes += 1;
+                let nets: Vec<usize> = conflicting.iter().map(|c| c.0).collect();
+                for (i, &k) in nets.iter().enumerate() {
+                    if cancel.load(Ordering::Relaxed) {
+                        cancelled = true;
+                        break;
+                    }
+                    self.uncommit(k);
+                    self.route_net(k, false);
+                    self.commit(k);
+                    report(&self.progress(RoutePhase::Negotiating, i + 1, nets.len(), nets.len()));
+                }
+                conflicting = self.conflicting();
+                if conflicting.len() < fewest {
+                    (fewest, since) = (conflicting.len(), 0);
+                } else {
+                    since += 1;
+                }
+            }
+            let n = conflicting.len();
+            if best.as_ref().is_none_or(|b| n < b.0) {
+                best = Some((n, self.routes.clone()));
+            }
+            if n == 0 || cancelled || self.passes >= self.opts.max_passes {
+                break;
+            }
+            let first: Vec<usize> = conflicting.iter().map(|c| c.0).collect();
+            order.retain(|k| !first.contains(k));
+            order.splice(0..0, first);
+            self.order = order.clone();
+        }
+        // Go back to the best attempt.
+        if let Some((_, routes)) = best {
+            for &k in &order {
+                self.uncommit(k);
+            }
+            self.routes = routes;
+            for &k in &order {
+                if self.routes[k].committed {
+                    self.routes[k].committed = false;
+                    self.commit(k);
+                }
+            }
         }
 
         // Settle: the most contested nets give way until no conflict is left, then try
@@ -838,7 +909,7 @@ impl<'a> Router<'a> {
                 r.paths.iter().flatten().copied().collect()
             };
             for pin in &plan.pins {
-                if dist(pin.centre, pin.access_point) < 1e-9 {
+                if pin.stub.len() < 2 {
                     continue;
                 }
                 for l in 0..2 {
@@ -849,7 +920,7 @@ impl<'a> Router<'a> {
                             net: name.clone(),
                             layer: layer_of(l),
                             width,
-                            points: vec![pin.centre, pin.access_point],
+                            points: pin.stub.clone(),
                         });
                     }
                 }
