@@ -5,8 +5,8 @@ mod app;
 mod bench;
 mod cli;
 mod copper_cmds;
-mod import_cmd;
 mod export_cmd;
+mod import_cmd;
 
 use std::process::ExitCode;
 
