@@ -227,6 +227,46 @@ fn layers_mask(l: Layers) -> u8 {
     }
 }
 
+/// Pins at most this far apart (centre to centre, mm) make a part fine-pitch: 0.65 mm
+/// (TSSOP) and below, the pitches at which tracks leave between the pins one at a time
+/// and need room outside the part to spread (common practice).
+pub const FINE_PITCH_MM: f64 = 0.65;
+
+/// Extra room each part keeps free of other parts, beyond half the clearance: for a
+/// fine-pitch part, a fan-out band for two tracks and their clearances,
+/// `2 (w + c) + c` with the widest track width `w` and clearance `c` among its nets (the
+/// board's rules where a net names no class); zero for other parts. Without it the
+/// placer packs neighbours against a QFN's pins and the router cannot leave them.
+pub fn fanout_margins(design: &Design) -> Vec<f64> {
+    let rules = &design.board.rules;
+    let mut widest = vec![None::<(f64, f64)>; design.footprints.len()];
+    for (ni, pins) in design.net_pins.iter().enumerate() {
+        let (w, c) = design
+            .net_class(crate::model::board::NetId(ni as u32))
+            .map_or((rules.track_width, rules.clearance), |k| (k.track_width, k.clearance));
+        for pin in pins {
+            let e = &mut widest[pin.part.index()];
+            let (w0, c0) = e.unwrap_or((0.0, 0.0));
+            *e = Some((w0.max(w), c0.max(c)));
+        }
+    }
+    design
+        .footprints
+        .iter()
+        .zip(widest)
+        .map(|(fp, wc)| {
+            let Some((w, c)) = wc else { return 0.0 };
+            let fine = fp.pads.iter().enumerate().any(|(k, a)| {
+                fp.pads[k + 1..].iter().any(|b| {
+                    let d = ((a.at.x - b.at.x).powi(2) + (a.at.y - b.at.y).powi(2)).sqrt();
+                    d > 1e-9 && d <= FINE_PITCH_MM + 1e-9
+                })
+            });
+            if fine { 2.0 * (w + c) + c } else { 0.0 }
+        })
+        .collect()
+}
+
 /// Placement state with incrementally maintained energy terms. See the module docs.
 pub struct Layout {
     // Static description, indexed by part, pin (connected pins only) or net.
@@ -344,6 +384,7 @@ impl Layout {
             }
         }
 
+        let fanout = fanout_margins(design);
         let mut part_pins_of_net: Vec<Vec<u32>> = vec![Vec::new(); board.nets.len()];
         for (i, (part, fp)) in board.parts.iter().zip(&design.footprints).enumerate() {
             let at = part
@@ -361,7 +402,7 @@ impl Layout {
             let origin = Point::default();
             let court: [Rect; 4] =
                 Quarter::ALL.map(|q| rect_to_board(&fp.courtyard, origin, q, side));
-            let grown = court.map(|r| r.inflate(half_clear));
+            let grown = court.map(|r| r.inflate(half_clear + fanout[i]));
             layout.part_pin_start.push(layout.pin_net.len() as u32);
             let mut rotatable = court.iter().any(|r| *r != court[0]);
             for (pad, net) in fp.pads.iter().zip(&pad_net[i]) {
