@@ -11,6 +11,7 @@
 mod canvas;
 mod caution;
 mod controls;
+mod copper;
 mod export;
 mod files;
 mod history;
@@ -31,9 +32,12 @@ use serde::{Deserialize, Serialize};
 use lehr::engine::{Command, EngineHandle, Event, Snapshot};
 use lehr::model::{Design, Point, Quarter};
 use lehr::place::{Schedule, Weights};
+use lehr::route::RouteOptions;
+use lehr::rules::ViolationKind;
 
 use canvas::Canvas;
 use controls::{ControlSettings, Controls};
+use copper::CopperPanel;
 use plots::Plots;
 use scene::{Geometry, Palette, Static};
 use undo::{Edit, PartState, UndoStack};
@@ -83,6 +87,13 @@ pub enum Action {
     Reset,
     DescentOnly,
     Finish,
+    /// Route the parts where they stand (on the worker).
+    Route,
+    CancelRoute,
+    /// Check the design rules.
+    Check,
+    /// Zoom the canvas to this violation of the last check.
+    ShowViolation(usize),
     SetSchedule(Schedule),
     SetWeights(Weights),
     SetSpeed(u64),
@@ -196,6 +207,9 @@ pub struct LehrApp {
     canvas: Canvas,
     controls: Controls,
     plots: Plots,
+    copper: CopperPanel,
+    /// [`Snapshot::copper_version`] of the copper in `doc.design.board.copper`.
+    copper_version: Option<u64>,
     undo: UndoStack,
     actions: Vec<Action>,
     message: Option<Message>,
@@ -243,6 +257,8 @@ impl LehrApp {
             canvas,
             controls: Controls::default(),
             plots: Plots::default(),
+            copper: CopperPanel::default(),
+            copper_version: None,
             undo: UndoStack::default(),
             actions: Vec::new(),
             message: None,
@@ -326,8 +342,82 @@ impl LehrApp {
                     for p in &s.samples {
                         self.plots.history.push(*p);
                     }
+                    if self.copper_version != Some(s.copper_version) {
+                        self.copper_version = Some(s.copper_version);
+                        self.doc.design.board.copper =
+                            s.copper.as_deref().cloned().unwrap_or_default();
+                        if s.copper.is_none() {
+                            self.st.routed.iter_mut().for_each(|r| *r = false);
+                        }
+                    }
+                    self.copper.note_snapshot(&s);
                     self.snap = Some(s);
                     self.geom_stale = true;
+                }
+                Event::RouteProgress(p) => self.copper.progress = Some(p),
+                Event::Routed(r) => {
+                    self.copper.routing = false;
+                    self.copper.progress = None;
+                    self.doc.dirty = true;
+                    let res = &r.result;
+                    let unrouted: std::collections::HashSet<&str> =
+                        res.unrouted.iter().map(|u| u.net.as_str()).collect();
+                    for (flag, net) in self.st.routed.iter_mut().zip(&self.doc.design.board.nets) {
+                        *flag = !unrouted.contains(net.name.as_str());
+                    }
+                    self.geom_stale = true;
+                    self.message = Some(Message {
+                        error: !res.unrouted.is_empty(),
+                        text: format!(
+                            "{}Routed {} of {} nets: {:.1} mm of track, {} vias, in {:.2} s.{}",
+                            if res.cancelled {
+                                "Routing stopped. "
+                            } else {
+                                ""
+                            },
+                            res.routed,
+                            res.nets,
+                            res.track_length_mm,
+                            res.vias,
+                            res.seconds,
+                            if res.unrouted.is_empty() {
+                                String::new()
+                            } else {
+                                format!(
+                                    " Not routed: {} (reasons under Copper).",
+                                    res.unrouted
+                                        .iter()
+                                        .take(6)
+                                        .map(|u| u.net.as_str())
+                                        .collect::<Vec<_>>()
+                                        .join(", ")
+                                        + if res.unrouted.len() > 6 { ", ..." } else { "" }
+                                )
+                            }
+                        ),
+                    });
+                    self.copper.routed = Some(r);
+                }
+                Event::Checked(c) => {
+                    self.copper.checking = false;
+                    if c.with_copper {
+                        let open: std::collections::HashSet<&str> = c
+                            .violations
+                            .iter()
+                            .filter(|v| v.kind == ViolationKind::Unconnected)
+                            .flat_map(|v| v.nets.iter().map(String::as_str))
+                            .collect();
+                        for (flag, net) in
+                            self.st.routed.iter_mut().zip(&self.doc.design.board.nets)
+                        {
+                            *flag = !open.contains(net.name.as_str());
+                        }
+                        self.geom_stale = true;
+                    }
+                    self.copper.checked = Some(c);
+                    self.copper.check_stale = false;
+                    self.copper.selected = None;
+                    self.copper.show_rules = true;
                 }
                 Event::Finished(f) => {
                     self.finishing = false;
@@ -355,6 +445,8 @@ impl LehrApp {
                 }
                 Event::Error(e) => {
                     self.finishing = false;
+                    self.copper.routing = false;
+                    self.copper.checking = false;
                     self.message = Some(Message {
                         error: true,
                         text: e,
@@ -362,6 +454,8 @@ impl LehrApp {
                 }
                 Event::Failed(e) => {
                     self.finishing = false;
+                    self.copper.routing = false;
+                    self.copper.checking = false;
                     self.message = Some(Message {
                         error: true,
                         text: e,
@@ -434,6 +528,8 @@ impl LehrApp {
         self.epoch = 0;
         self.plots.history.clear();
         self.controls.weights = None;
+        self.copper.reset();
+        self.copper_version = None;
         self.undo.clear();
         self.canvas.reset();
         self.message = None;
@@ -526,6 +622,17 @@ impl LehrApp {
                 self.finishing = true;
                 self.send(Command::Finish);
             }
+            Action::Route => {
+                self.copper.routing = true;
+                self.copper.progress = None;
+                self.send(Command::Route(RouteOptions::default()));
+            }
+            Action::CancelRoute => self.send(Command::CancelRoute),
+            Action::Check => {
+                self.copper.checking = true;
+                self.send(Command::Check);
+            }
+            Action::ShowViolation(i) => self.show_violation(i),
             Action::SetSchedule(s) => self.send(Command::SetSchedule(s)),
             Action::SetWeights(w) => self.send(Command::SetWeights(w)),
             Action::SetSpeed(n) => self.send(Command::SetMovesPerTick(n)),
@@ -634,6 +741,48 @@ impl LehrApp {
         }
     }
 
+    /// Zooms the canvas to a broken rule of the last check and marks it.
+    fn show_violation(&mut self, i: usize) {
+        let Some(v) = self
+            .copper
+            .checked
+            .as_ref()
+            .and_then(|c| c.violations.get(i))
+        else {
+            return;
+        };
+        self.copper.selected = Some(i);
+        let board = &self.doc.design.board;
+        let parts: Vec<u32> = v
+            .parts
+            .iter()
+            .filter_map(|r| board.parts.iter().position(|p| &p.reference == r))
+            .map(|k| k as u32)
+            .collect();
+        self.canvas.net = v
+            .nets
+            .first()
+            .and_then(|n| board.nets.iter().position(|x| &x.name == n))
+            .map(|k| k as u32);
+        if let Some(at) = v.at {
+            // Wide enough to show the parts involved, at least 6 mm.
+            let span = parts
+                .iter()
+                .filter_map(|&k| self.geom.parts.get(k as usize))
+                .map(|p| {
+                    let c = p.court;
+                    2.0 * (c.min.x - at.x)
+                        .abs()
+                        .max((c.max.x - at.x).abs())
+                        .max((c.min.y - at.y).abs())
+                        .max((c.max.y - at.y).abs())
+                })
+                .fold(6.0, f64::max)
+                .min(60.0);
+            self.canvas.show(at, span * 1.2, parts);
+        }
+    }
+
     /// A dialog gave no file: cancelled, or no dialog could be shown.
     fn no_dialog(&mut self) {
         self.message = Some(Message {
@@ -712,6 +861,12 @@ impl LehrApp {
             }
             if i.consume_shortcut(&KeyboardShortcut::new(cmd, Key::Enter)) {
                 out.push(Action::Finish);
+            }
+            if i.consume_shortcut(&KeyboardShortcut::new(cmd, Key::T)) {
+                out.push(Action::Route);
+            }
+            if i.consume_shortcut(&KeyboardShortcut::new(cmd, Key::K)) {
+                out.push(Action::Check);
             }
             if i.consume_key(Modifiers::NONE, Key::Space) {
                 out.push(if running { Action::Pause } else { Action::Run });
@@ -957,9 +1112,21 @@ impl LehrApp {
             });
         }
         let frame_ms = (self.frames.median(), self.frames.whole_median());
+        let extra = [
+            self.copper.status(self.snap.as_deref()),
+            self.copper.rules_status(),
+        ];
         egui::Panel::bottom("status").show(ui, |ui| {
-            controls::status_ui(ui, self.snap.as_deref(), frame_ms);
+            controls::status_ui(ui, self.snap.as_deref(), frame_ms, &extra);
         });
+        if self.copper.show_rules && self.copper.checked.is_some() {
+            egui::Panel::bottom("rules")
+                .resizable(true)
+                .default_size(150.0)
+                .show(ui, |ui| {
+                    self.copper.rules_ui(ui, &mut self.actions);
+                });
+        }
         egui::Panel::left("controls")
             .resizable(true)
             .default_size(270.0)
@@ -971,6 +1138,8 @@ impl LehrApp {
                         self.snap.as_deref(),
                         &mut self.actions,
                     );
+                    ui.separator();
+                    self.copper.ui(ui, self.snap.as_deref(), &mut self.actions);
                     ui.separator();
                     ui.heading("Part");
                     self.selection_ui(ui);
@@ -1036,6 +1205,8 @@ impl LehrApp {
         let running = self.snap.as_deref().is_some_and(|s| s.running);
         if running
             || self.finishing
+            || self.copper.routing
+            || self.copper.checking
             || Instant::now() < self.expect_until
             || self.canvas.dragging().is_some()
         {

@@ -133,6 +133,8 @@ pub struct Static {
     pub pad_net: Vec<Vec<Option<u32>>>,
     pub outline: Vec<Point>,
     pub keepouts: Vec<Vec<Point>>,
+    /// Per net: its copper connects all its pins, so no unrouted lines are drawn for it.
+    pub routed: Vec<bool>,
 }
 
 impl Static {
@@ -156,6 +158,7 @@ impl Static {
                 .iter()
                 .map(|k| k.shape.vertices())
                 .collect(),
+            routed: vec![false; design.board.nets.len()],
         }
     }
 }
@@ -230,7 +233,7 @@ impl Geometry {
         let mut unrouted = Vec::new();
         let mut pts = Vec::new();
         for (net, pins) in design.net_pins.iter().enumerate() {
-            if pins.len() < 2 {
+            if pins.len() < 2 || st.routed.get(net).copied().unwrap_or(false) {
                 continue;
             }
             pts.clear();
