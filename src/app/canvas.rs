@@ -42,6 +42,9 @@ pub struct Canvas {
     /// A place singled out (a broken rule): a ring is drawn around it, and around the
     /// courtyards of these parts.
     pub marker: Option<(Point, Vec<u32>)>,
+    /// Paint the background (not needed when the window is cleared to its colour: one
+    /// full-canvas fill less for a software renderer).
+    pub paint_background: bool,
 }
 
 impl Default for Canvas {
@@ -58,6 +61,7 @@ impl Default for Canvas {
             last_view: None,
             last_size: None,
             marker: None,
+            paint_background: true,
         }
     }
 }
@@ -96,6 +100,7 @@ impl Canvas {
     pub fn reset(&mut self) {
         *self = Canvas {
             labels: self.labels,
+            paint_background: self.paint_background,
             ..Canvas::default()
         };
     }
@@ -238,7 +243,9 @@ impl Canvas {
 
         self.last_view = Some(view);
         // Paint.
-        painter.rect_filled(rect, 0.0, pal.background);
+        if self.paint_background {
+            painter.rect_filled(rect, 0.0, pal.background);
+        }
         let mut pen = EguiPen {
             view,
             clip: rect,

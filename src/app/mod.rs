@@ -8,12 +8,14 @@
 //! Settings (theme, last folder, recent files, schedule choices) are saved through
 //! eframe's storage; panel sizes are kept by egui's own memory.
 
+mod budget;
 mod canvas;
 mod caution;
 mod controls;
 mod copper;
 mod export;
 mod files;
+mod framebench;
 mod history;
 mod plots;
 mod scene;
@@ -38,6 +40,7 @@ use lehr::rules::ViolationKind;
 use canvas::Canvas;
 use controls::{ControlSettings, Controls};
 use copper::CopperPanel;
+pub use framebench::measure_frames;
 use plots::Plots;
 use scene::{Geometry, Palette, Static};
 use undo::{Edit, PartState, UndoStack};
@@ -229,6 +232,10 @@ pub struct LehrApp {
     pub repaint: Duration,
     /// `repaint` was given on the command line: keep it.
     pub repaint_fixed: bool,
+    /// The CPU budget that sets the interval between pictures (real window only).
+    pub budget: Option<budget::Budget>,
+    /// The interval between pictures chosen in the last frame.
+    pub interval: Duration,
 }
 
 impl LehrApp {
@@ -271,6 +278,8 @@ impl LehrApp {
             discarding: false,
             repaint: REPAINT,
             repaint_fixed: false,
+            budget: None,
+            interval: REPAINT,
         };
         app.rebuild_geometry();
         app
@@ -1210,7 +1219,15 @@ impl LehrApp {
             || Instant::now() < self.expect_until
             || self.canvas.dragging().is_some()
         {
-            ctx.request_repaint_after(self.frames.repaint_interval(self.repaint));
+            let fallback = self.frames.repaint_interval(self.repaint);
+            self.interval = match &mut self.budget {
+                Some(b) if running => b.update(fallback),
+                _ => fallback,
+            };
+            ctx.request_repaint_after(self.interval);
+        }
+        if !running && let Some(b) = &mut self.budget {
+            b.pause();
         }
         self.frames.push(t0.elapsed().as_secs_f64() * 1e3);
     }
@@ -1253,6 +1270,16 @@ fn gl_renderer(frame: &eframe::Frame) -> Option<String> {
 }
 
 impl eframe::App for Window {
+    /// The canvas's background, so the canvas need not paint it again.
+    fn clear_color(&self, visuals: &egui::Visuals) -> [f32; 4] {
+        let pal = if visuals.dark_mode {
+            Palette::dark()
+        } else {
+            Palette::light()
+        };
+        pal.background.to_normalized_gamma_f32()
+    }
+
     fn ui(&mut self, ui: &mut egui::Ui, frame: &mut eframe::Frame) {
         if !self.renderer_checked {
             self.renderer_checked = true;
@@ -1281,8 +1308,7 @@ impl eframe::App for Window {
                 self.app.frames.keep_all = true;
                 self.app.push(Action::Run);
             }
-            ui.ctx()
-                .request_repaint_after(self.app.frames.repaint_interval(self.app.repaint));
+            ui.ctx().request_repaint_after(self.app.interval);
             let done = self.app.snapshot().is_some_and(|s| s.done && s.moves > 0);
             if done || m.start.elapsed().as_secs_f64() >= m.seconds {
                 let s = self.app.snapshot();
@@ -1299,6 +1325,8 @@ impl eframe::App for Window {
                     "mean_moves_per_second": s.map(|s| s.moves as f64 / m.start.elapsed().as_secs_f64()),
                     "done": s.map(|s| s.done),
                     "repaint_min_ms": self.app.repaint.as_secs_f64() * 1e3,
+                    "interval_ms": self.app.interval.as_secs_f64() * 1e3,
+                    "window_share_of_a_core": self.app.budget.as_ref().and_then(|b| b.share),
                 });
                 println!("{report}");
                 self.app.quit_ok = true;
@@ -1410,7 +1438,11 @@ pub fn run_window(board: Option<&Path>, o: &OpenOptions) -> Result<()> {
             if let Some(ms) = repaint_ms {
                 app.repaint = Duration::from_millis(ms);
                 app.repaint_fixed = true;
+            } else {
+                app.budget = Some(budget::Budget::default());
             }
+            // The window clears to the canvas's background colour (see `clear_color`).
+            app.canvas.paint_background = false;
             Ok(Box::new(Window {
                 app,
                 measure: measure.map(|seconds| Measure {
