@@ -8,6 +8,11 @@
 //! shrinks the interval between pictures so that everything but the engine (the window's
 //! thread and the rasteriser's) uses at most [`BUDGET`] of one core.
 //! Elsewhere, or when `/proc` cannot be read, the interval rule of `FrameTimes` applies.
+//!
+//! On Linux the window also lowers the scheduling priority (nice 10) of its helper
+//! threads, the software rasteriser's among them, so that on a busy machine they wait for
+//! the engine rather than the engine for them. The window's own thread keeps its priority
+//! (engines for boards opened later are started from it and inherit it).
 
 use std::time::{Duration, Instant};
 
@@ -32,7 +37,7 @@ fn stat_seconds(text: &str) -> Option<f64> {
 }
 
 /// CPU seconds of this process and of the engine thread, if `/proc` tells.
-fn cpu_seconds() -> Option<(f64, f64)> {
+pub fn cpu_seconds() -> Option<(f64, f64)> {
     let parse = stat_seconds;
     let process = parse(&std::fs::read_to_string("/proc/self/stat").ok()?)?;
     let mut engine = None;
@@ -47,6 +52,44 @@ fn cpu_seconds() -> Option<(f64, f64)> {
     Some((process, engine?))
 }
 
+/// Nice value given to the window's helper threads.
+pub const HELPER_NICE: i32 = 10;
+
+/// Lowers the priority of every thread of this process but the main one and the
+/// engine's, once per thread; `done` remembers which were lowered.
+#[cfg(target_os = "linux")]
+fn lower_helpers(done: &mut Vec<u32>) {
+    let pid = std::process::id();
+    let Ok(dir) = std::fs::read_dir("/proc/self/task") else {
+        return;
+    };
+    for entry in dir.flatten() {
+        let Some(tid) = entry
+            .file_name()
+            .to_str()
+            .and_then(|s| s.parse::<u32>().ok())
+        else {
+            continue;
+        };
+        if tid == pid || done.contains(&tid) {
+            continue;
+        }
+        let comm = std::fs::read_to_string(entry.path().join("comm")).unwrap_or_default();
+        if comm.trim_end() == "lehr-engine" {
+            continue;
+        }
+        // SAFETY: a plain system call on a thread of this process; raising a nice value
+        // needs no privilege, and a failure only leaves the priority as it was.
+        unsafe {
+            libc::setpriority(libc::PRIO_PROCESS, tid as libc::id_t, HELPER_NICE);
+        }
+        done.push(tid);
+    }
+}
+
+#[cfg(not(target_os = "linux"))]
+fn lower_helpers(_done: &mut Vec<u32>) {}
+
 /// The interval between pictures, adjusted about once a second.
 #[derive(Debug, Default)]
 pub struct Budget {
@@ -55,6 +98,8 @@ pub struct Budget {
     pub interval: Option<Duration>,
     /// The window's share of a core over the last measurement.
     pub share: Option<f64>,
+    /// Helper threads whose priority was lowered.
+    lowered: Vec<u32>,
 }
 
 impl Budget {
@@ -65,6 +110,7 @@ impl Budget {
         match self.last {
             Some((t, _, _)) if now.duration_since(t) < Duration::from_millis(1000) => {}
             _ => {
+                lower_helpers(&mut self.lowered);
                 if let Some((process, engine)) = cpu_seconds() {
                     if let Some((t, p0, e0)) = self.last {
                         let wall = now.duration_since(t).as_secs_f64();

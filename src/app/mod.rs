@@ -1247,6 +1247,20 @@ struct Measure {
     seconds: f64,
     start: Instant,
     started: bool,
+    /// Process and engine CPU seconds at the start.
+    cpu0: Option<(f64, f64)>,
+}
+
+/// Shares of a core over `wall` seconds since `cpu0`: the engine's and the rest of the
+/// process's (the window and the renderer's threads), from `/proc` (Linux).
+fn cpu_shares(cpu0: Option<(f64, f64)>, wall: f64) -> (Option<f64>, Option<f64>) {
+    match (cpu0, budget::cpu_seconds()) {
+        (Some((p0, e0)), Some((p1, e1))) if wall > 0.0 => (
+            Some((e1 - e0) / wall),
+            Some(((p1 - p0) - (e1 - e0)).max(0.0) / wall),
+        ),
+        _ => (None, None),
+    }
 }
 
 /// The eframe side: the app plus what only a real window has.
@@ -1305,6 +1319,7 @@ impl eframe::App for Window {
             if !m.started {
                 m.started = true;
                 m.start = Instant::now();
+                m.cpu0 = budget::cpu_seconds();
                 self.app.frames.keep_all = true;
                 self.app.push(Action::Run);
             }
@@ -1312,7 +1327,10 @@ impl eframe::App for Window {
             let done = self.app.snapshot().is_some_and(|s| s.done && s.moves > 0);
             if done || m.start.elapsed().as_secs_f64() >= m.seconds {
                 let s = self.app.snapshot();
+                let (engine_cpu, other_cpu) = cpu_shares(m.cpu0, m.start.elapsed().as_secs_f64());
                 let report = serde_json::json!({
+                    "engine_share_of_a_core": engine_cpu,
+                    "rest_share_of_a_core": other_cpu,
                     "parts": self.app.design().board.parts.len(),
                     "seconds": m.start.elapsed().as_secs_f64(),
                     "frames": self.app.frames.all.len(),
@@ -1449,6 +1467,7 @@ pub fn run_window(board: Option<&Path>, o: &OpenOptions) -> Result<()> {
                     seconds,
                     start: Instant::now(),
                     started: false,
+                    cpu0: None,
                 }),
                 cpu_ms: Vec::new(),
                 renderer_checked: false,
@@ -1470,13 +1489,17 @@ pub fn measure_headless(board: Option<&Path>, seconds: f64) -> Result<()> {
     h.send(Command::SetMovesPerTick(20_000));
     h.send(Command::Run);
     let start = Instant::now();
+    let cpu0 = budget::cpu_seconds();
     let mut last: Option<Arc<Snapshot>> = None;
     while start.elapsed().as_secs_f64() < seconds && !last.as_ref().is_some_and(|s| s.done) {
         if let Some(Event::Snapshot(s)) = h.recv_timeout(Duration::from_millis(50)) {
             last = Some(s);
         }
     }
+    let (engine_cpu, other_cpu) = cpu_shares(cpu0, start.elapsed().as_secs_f64());
     let report = serde_json::json!({
+        "engine_share_of_a_core": engine_cpu,
+        "rest_share_of_a_core": other_cpu,
         "parts": parts,
         "seconds": start.elapsed().as_secs_f64(),
         "moves": last.as_ref().map(|s| s.moves),
