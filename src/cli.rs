@@ -99,6 +99,10 @@ struct OpenArgs {
     /// With --measure: run the engine without a window, for comparison.
     #[arg(long, hide = true, requires = "measure")]
     headless: bool,
+    /// With --measure: lehr's frame code and egui's tessellation, no window (a frame
+    /// every --repaint-ms, default 100).
+    #[arg(long, hide = true, requires = "measure")]
+    frames: bool,
     /// Shortest time between pictures while running, ms (default 33).
     #[arg(long, hide = true)]
     repaint_ms: Option<u64>,
@@ -158,6 +162,9 @@ pub fn run() -> Result<ExitCode> {
         }
         Some(Command::Open(a)) => {
             match (a.measure, a.headless) {
+                (Some(secs), _) if a.frames => {
+                    crate::app::measure_frames(a.board.as_deref(), secs, a.repaint_ms)?
+                }
                 (Some(secs), true) => crate::app::measure_headless(a.board.as_deref(), secs)?,
                 (measure, _) => crate::app::run_window(
                     a.board.as_deref(),

@@ -7,20 +7,33 @@
 //! draw a 1,000-part board without slowing the annealer down. Only owned, `Send` data
 //! crosses the channel. A panic while handling a command is caught, reported as
 //! [`Event::Failed`], and the worker goes back to the last board it was given.
+//!
+//! The worker also routes the current placement ([`Command::Route`], stopped early by
+//! [`Command::CancelRoute`]) and checks it against the design rules ([`Command::Check`]).
+//! It keeps the routed copper together with the part positions it was routed for; as
+//! soon as a part stands anywhere else (annealing, a move by hand, a reset to other
+//! positions), the copper is dropped and [`Snapshot::copper_cleared`] says why.
 
 use std::panic::{AssertUnwindSafe, catch_unwind};
 use std::sync::Arc;
+use std::sync::atomic::{AtomicBool, Ordering};
 use std::sync::mpsc::{self, Receiver, RecvTimeoutError, Sender, TryRecvError};
 use std::thread::JoinHandle;
 use std::time::{Duration, Instant};
 
+use crate::model::board::Copper;
 use crate::model::{Board, Design, Point, Quarter};
 use crate::place::{
     self, AnnealOptions, Annealer, Conflict, PlaceReport, Schedule, StageReport, Terms, Weights,
 };
+use crate::route::{RouteOptions, RouteProgress, RouteResult};
+use crate::rules::Violation;
 
 /// Interval between snapshots while running.
 pub const SNAPSHOT_INTERVAL: Duration = Duration::from_millis(33);
+
+/// Shortest interval between two [`Event::RouteProgress`] while routing.
+pub const ROUTE_PROGRESS_INTERVAL: Duration = Duration::from_millis(50);
 
 /// What the interface asks of the worker.
 #[derive(Clone, Debug)]
@@ -59,6 +72,17 @@ pub enum Command {
     },
     /// Stop annealing and run the legal finish; answers with [`Event::Finished`].
     Finish,
+    /// Pause, then route the parts where they stand now: answers with
+    /// [`Event::RouteProgress`] while it works and [`Event::Routed`] at the end. The
+    /// copper replaces any the board had and stays until a part moves.
+    Route(RouteOptions),
+    /// Stop a route in progress after the net it is on (the copper so far is kept and is
+    /// legal). Takes effect at once, even while the worker is busy routing, because
+    /// [`EngineHandle::send`] also raises a shared flag the router reads.
+    CancelRoute,
+    /// Check the parts where they stand now, with the copper if it is still valid,
+    /// against the design rules: answers with [`Event::Checked`].
+    Check,
     /// Ask for a snapshot now.
     Refresh,
     /// End the worker.
@@ -116,6 +140,14 @@ pub struct Snapshot {
     /// Per part, the conflicts it is in now: [`CONFLICT_OVERLAP`], [`CONFLICT_OUTSIDE`],
     /// [`CONFLICT_KEEPOUT`] or'ed together (0 when clear).
     pub conflicts: Vec<u8>,
+    /// The copper for the parts where they stand (routed here, or the loaded board's),
+    /// `None` when there is none or it was dropped because parts moved.
+    pub copper: Option<Arc<Copper>>,
+    /// Changes whenever [`Snapshot::copper`] is set or dropped, so a viewer copies the
+    /// copper only when it changed.
+    pub copper_version: u64,
+    /// Why the copper was dropped, until the next route.
+    pub copper_cleared: Option<String>,
 }
 
 /// [`Snapshot::conflicts`] bit: the part's courtyard overlaps another's.
@@ -135,6 +167,38 @@ pub enum Event {
     Error(String),
     /// The worker panicked; it has gone back to the last board it was given.
     Failed(String),
+    /// How a route is going (at most every [`ROUTE_PROGRESS_INTERVAL`]).
+    RouteProgress(RouteProgress),
+    /// A route has ended (finished or cancelled); its copper is now the snapshot's.
+    Routed(Box<Routed>),
+    /// The answer to [`Command::Check`].
+    Checked(Box<Checked>),
+}
+
+/// Result of [`Command::Route`].
+#[derive(Clone, Debug)]
+pub struct Routed {
+    /// The router's result: copper, routed and unrouted nets with reasons, track length,
+    /// vias, seconds, and whether it was cancelled.
+    pub result: RouteResult,
+    /// The board as routed: parts where they stood, with the copper.
+    pub board: Board,
+}
+
+/// Result of [`Command::Check`].
+#[derive(Clone, Debug)]
+pub struct Checked {
+    /// Every rule broken; empty for a clean board.
+    pub violations: Vec<Violation>,
+    /// Part positions and turns the check was made for, so a viewer can tell when its
+    /// list is out of date.
+    pub positions: Vec<Point>,
+    pub quarters: Vec<Quarter>,
+    /// Whether the board checked had copper ([`Snapshot::copper_version`] it was).
+    pub copper_version: u64,
+    pub with_copper: bool,
+    /// Time the check took.
+    pub seconds: f64,
 }
 
 /// Result of [`Command::Finish`].
@@ -150,6 +214,8 @@ pub struct EngineHandle {
     tx: Sender<Command>,
     rx: Receiver<Event>,
     thread: Option<JoinHandle<()>>,
+    /// Read by the router between nets; raised by [`Command::CancelRoute`].
+    cancel: Arc<AtomicBool>,
 }
 
 impl EngineHandle {
@@ -157,19 +223,29 @@ impl EngineHandle {
     pub fn spawn(design: Design, opts: AnnealOptions) -> EngineHandle {
         let (tx, crx) = mpsc::channel();
         let (etx, rx) = mpsc::channel();
+        let cancel = Arc::new(AtomicBool::new(false));
+        let flag = cancel.clone();
         let thread = std::thread::Builder::new()
             .name("lehr-engine".into())
-            .spawn(move || Worker::new(design, opts, etx).run(crx))
+            .spawn(move || Worker::new(design, opts, etx, flag).run(crx))
             .expect("the system can start a thread");
         EngineHandle {
             tx,
             rx,
             thread: Some(thread),
+            cancel,
         }
     }
 
-    /// Sends a command; false if the worker has gone.
+    /// Sends a command; false if the worker has gone. [`Command::CancelRoute`] also
+    /// raises the cancel flag at once (the worker may be busy routing), and
+    /// [`Command::Route`] lowers it, so a cancel sent before a route does not stop it.
     pub fn send(&self, c: Command) -> bool {
+        match c {
+            Command::Route(_) => self.cancel.store(false, Ordering::Relaxed),
+            Command::CancelRoute => self.cancel.store(true, Ordering::Relaxed),
+            _ => {}
+        }
         self.tx.send(c).is_ok()
     }
 
@@ -187,6 +263,7 @@ impl EngineHandle {
 impl Drop for EngineHandle {
     fn drop(&mut self) {
         let _ = self.tx.send(Command::Shutdown);
+        self.cancel.store(true, Ordering::Relaxed);
         if let Some(t) = self.thread.take() {
             let _ = t.join();
         }
@@ -207,10 +284,26 @@ struct Worker {
     rate_window: (Instant, u64),
     moves_per_second: f64,
     epoch: u64,
+    cancel: Arc<AtomicBool>,
+    copper: Option<RoutedCopper>,
+    copper_version: u64,
+    copper_cleared: Option<String>,
+}
+
+/// Copper and the placement it belongs to.
+struct RoutedCopper {
+    copper: Arc<Copper>,
+    positions: Vec<Point>,
+    quarters: Vec<Quarter>,
 }
 
 impl Worker {
-    fn new(design: Design, opts: AnnealOptions, events: Sender<Event>) -> Worker {
+    fn new(
+        design: Design,
+        opts: AnnealOptions,
+        events: Sender<Event>,
+        cancel: Arc<AtomicBool>,
+    ) -> Worker {
         let mut w = Worker {
             design,
             opts,
@@ -225,12 +318,67 @@ impl Worker {
             rate_window: (Instant::now(), 0),
             moves_per_second: 0.0,
             epoch: 0,
+            cancel,
+            copper: None,
+            copper_version: 0,
+            copper_cleared: None,
         };
-        w.restart();
+        w.load_fresh();
         w
     }
 
+    /// A fresh start on a newly given board, with the board's own copper.
+    fn load_fresh(&mut self) {
+        self.start_over();
+        self.adopt_board_copper();
+        self.send_snapshot();
+    }
+
+    /// The loaded board's own copper, valid for the parts where the file has them.
+    fn adopt_board_copper(&mut self) {
+        self.copper = None;
+        self.copper_cleared = None;
+        self.copper_version += 1;
+        let c = &self.design.board.copper;
+        if let Some(a) = &self.an
+            && (!c.tracks.is_empty() || !c.vias.is_empty())
+        {
+            let l = a.layout();
+            self.copper = Some(RoutedCopper {
+                copper: Arc::new(c.clone()),
+                positions: l.positions().to_vec(),
+                quarters: l.quarters().to_vec(),
+            });
+        }
+    }
+
+    /// Drops the copper if any part no longer stands where it was routed.
+    fn validate_copper(&mut self) {
+        let Some(rc) = &self.copper else {
+            return;
+        };
+        let moved = match &self.an {
+            Some(a) => {
+                let l = a.layout();
+                l.positions() != rc.positions.as_slice() || l.quarters() != rc.quarters.as_slice()
+            }
+            None => true,
+        };
+        if moved {
+            self.copper = None;
+            self.copper_version += 1;
+            self.copper_cleared = Some(
+                "the copper was removed because parts moved after routing; route again".into(),
+            );
+        }
+    }
+
     fn restart(&mut self) {
+        self.start_over();
+        self.send_snapshot();
+    }
+
+    fn start_over(&mut self) {
         self.epoch += 1;
         self.running = false;
         self.stop_after_stage = None;
@@ -244,7 +392,6 @@ impl Worker {
                 let _ = self.events.send(Event::Error(e.to_string()));
             }
         }
-        self.send_snapshot();
     }
 
     fn run(mut self, commands: Receiver<Command>) {
@@ -295,7 +442,7 @@ impl Worker {
         match c {
             Command::Load(d) => {
                 self.design = *d;
-                self.restart();
+                self.load_fresh();
             }
             Command::Run => {
                 self.stop_after_stage = None;
@@ -376,9 +523,94 @@ impl Worker {
                 self.finish_run();
                 self.send_snapshot();
             }
+            Command::Route(o) => {
+                self.running = false;
+                self.route(&o);
+                self.send_snapshot();
+            }
+            Command::CancelRoute => {}
+            Command::Check => self.check(),
             Command::Refresh => self.send_snapshot(),
             Command::Shutdown => {}
         }
+    }
+
+    /// The board with the parts where the annealer has them now (no copper).
+    fn current_design(&self) -> Result<Design, String> {
+        let a = self.an.as_ref().ok_or("no board is loaded")?;
+        let l = a.layout();
+        let mut board = place::board_at(&self.design, l.positions(), l.quarters());
+        board.copper = Copper::default();
+        crate::model::resolve(board).map_err(|problems| {
+            let list: Vec<String> = problems.iter().map(|p| p.to_string()).collect();
+            format!("the board is not valid as placed: {}", list.join("; "))
+        })
+    }
+
+    /// Routes the current placement; see [`Command::Route`].
+    fn route(&mut self, opts: &RouteOptions) {
+        let design = match self.current_design() {
+            Ok(d) => d,
+            Err(e) => {
+                let _ = self.events.send(Event::Error(e));
+                return;
+            }
+        };
+        let events = self.events.clone();
+        let mut last: Option<Instant> = None;
+        let mut progress = |p: &RouteProgress| {
+            if last.is_none_or(|t| t.elapsed() >= ROUTE_PROGRESS_INTERVAL) {
+                last = Some(Instant::now());
+                let _ = events.send(Event::RouteProgress(p.clone()));
+            }
+        };
+        match crate::route::route(&design, opts, &self.cancel, &mut progress) {
+            Ok(result) => {
+                let l = self.an.as_ref().map(Annealer::layout);
+                let copper = Arc::new(result.copper.clone());
+                self.copper = l.map(|l| RoutedCopper {
+                    copper: copper.clone(),
+                    positions: l.positions().to_vec(),
+                    quarters: l.quarters().to_vec(),
+                });
+                self.copper_version += 1;
+                self.copper_cleared = None;
+                let mut board = design.board;
+                board.copper = result.copper.clone();
+                let _ = self
+                    .events
+                    .send(Event::Routed(Box::new(Routed { result, board })));
+            }
+            Err(e) => {
+                let _ = self.events.send(Event::Error(format!("cannot route: {e}")));
+            }
+        }
+    }
+
+    /// Checks the current placement and its copper; see [`Command::Check`].
+    fn check(&mut self) {
+        self.validate_copper();
+        let start = Instant::now();
+        let mut design = match self.current_design() {
+            Ok(d) => d,
+            Err(e) => {
+                let _ = self.events.send(Event::Error(e));
+                return;
+            }
+        };
+        if let Some(rc) = &self.copper {
+            design.board.copper = (*rc.copper).clone();
+        }
+        let violations = crate::rules::check(&design);
+        let l = self.an.as_ref().map(Annealer::layout);
+        let _ = self.events.send(Event::Checked(Box::new(Checked {
+            violations,
+            positions: l.map_or_else(Vec::new, |l| l.positions().to_vec()),
+            quarters: l.map_or_else(Vec::new, |l| l.quarters().to_vec()),
+            copper_version: self.copper_version,
+            with_copper: self.copper.is_some(),
+            seconds: start.elapsed().as_secs_f64(),
+        })));
     }
 
     /// The legal finish on the current run, answered by [`Event::Finished`]. The run
@@ -459,6 +691,7 @@ impl Worker {
     }
 
     fn send_snapshot(&mut self) {
+        self.validate_copper();
         self.last_snapshot = Instant::now();
         let snap = match &self.an {
             Some(a) => {
@@ -493,10 +726,15 @@ impl Worker {
                     conflicts: (0..l.part_count() as u32)
                         .map(|i| conflict_bits(l.part_violations(i)))
                         .collect(),
+                    copper: self.copper.as_ref().map(|c| c.copper.clone()),
+                    copper_version: self.copper_version,
+                    copper_cleared: self.copper_cleared.clone(),
                 }
             }
             None => Snapshot {
                 epoch: self.epoch,
+                copper_version: self.copper_version,
+                copper_cleared: self.copper_cleared.clone(),
                 ..Snapshot::default()
             },
         };

@@ -37,6 +37,14 @@ pub struct Canvas {
     pub labels: bool,
     /// The view of the last frame (tests point at parts through it).
     last_view: Option<View>,
+    /// The canvas's size on screen in the last frame.
+    last_size: Option<Vec2>,
+    /// A place singled out (a broken rule): a ring is drawn around it, and around the
+    /// courtyards of these parts.
+    pub marker: Option<(Point, Vec<u32>)>,
+    /// Paint the background (not needed when the window is cleared to its colour: one
+    /// full-canvas fill less for a software renderer).
+    pub paint_background: bool,
 }
 
 impl Default for Canvas {
@@ -51,6 +59,9 @@ impl Default for Canvas {
             drag: None,
             labels: true,
             last_view: None,
+            last_size: None,
+            marker: None,
+            paint_background: true,
         }
     }
 }
@@ -89,8 +100,25 @@ impl Canvas {
     pub fn reset(&mut self) {
         *self = Canvas {
             labels: self.labels,
+            paint_background: self.paint_background,
             ..Canvas::default()
         };
+    }
+
+    /// Centres the view on `at`, zoomed so that about `span` mm fit across, and marks
+    /// it (with `parts`' courtyards).
+    pub fn show(&mut self, at: Point, span: f64, parts: Vec<u32>) {
+        let size = self.last_size.unwrap_or(Vec2::new(800.0, 600.0));
+        self.fit_pending = false;
+        self.center = at;
+        self.scale = (f64::from(size.x.min(size.y)) / span.max(0.5)).clamp(0.05, 2000.0);
+        self.marker = Some((at, parts));
+    }
+
+    /// The board point at the centre of the view.
+    #[cfg(test)]
+    pub fn center(&self) -> Point {
+        self.center
     }
 
     /// Where a board point was on the screen in the last frame.
@@ -121,6 +149,7 @@ impl Canvas {
     ) {
         let (response, painter) = ui.allocate_painter(ui.available_size(), Sense::click_and_drag());
         let rect = response.rect;
+        self.last_size = Some(rect.size());
         if self.fit_pending && rect.width() > 10.0 && rect.height() > 10.0 {
             let b = g.bounds.inflate(1.0);
             self.center = b.center();
@@ -204,6 +233,7 @@ impl Canvas {
             });
         }
         if response.clicked() {
+            self.marker = None;
             self.selected = self.hovered_part;
             self.net = hovered_net;
         }
@@ -213,7 +243,9 @@ impl Canvas {
 
         self.last_view = Some(view);
         // Paint.
-        painter.rect_filled(rect, 0.0, pal.background);
+        if self.paint_background {
+            painter.rect_filled(rect, 0.0, pal.background);
+        }
         let mut pen = EguiPen {
             view,
             clip: rect,
@@ -238,6 +270,26 @@ impl Canvas {
                 egui::FontId::monospace(size),
                 c,
             );
+        }
+        if let Some((at, parts)) = &self.marker {
+            let stroke = egui::Stroke::new(2.5, pal.selected);
+            for &i in parts {
+                if let Some(p) = g.parts.get(i as usize) {
+                    let r = egui::Rect::from_two_pos(
+                        view.screen_from_board(p.court.min),
+                        view.screen_from_board(p.court.max),
+                    )
+                    .expand(3.0);
+                    painter.rect_stroke(r, 2.0, stroke, egui::StrokeKind::Outside);
+                }
+            }
+            let c = view.screen_from_board(*at);
+            painter.circle_stroke(c, 14.0, stroke);
+            painter.circle_stroke(c, 15.5, egui::Stroke::new(1.0, pal.background));
+            for d in [Vec2::X, Vec2::Y] {
+                painter.line_segment([c - d * 22.0, c - d * 8.0], stroke);
+                painter.line_segment([c + d * 8.0, c + d * 22.0], stroke);
+            }
         }
 
         // What is under the cursor.

@@ -291,7 +291,12 @@ impl Controls {
 /// The status line: temperature, acceptance, speed, wirelength, conflicts.
 /// `frame_ms` is the time of the app's own frame code and, with a real window, of the
 /// whole frame.
-pub fn status_ui(ui: &mut egui::Ui, snap: Option<&Snapshot>, frame_ms: (Option<f64>, Option<f64>)) {
+pub fn status_ui(
+    ui: &mut egui::Ui,
+    snap: Option<&Snapshot>,
+    frame_ms: (Option<f64>, Option<f64>),
+    extra: &[String],
+) {
     ui.horizontal_wrapped(|ui| {
         let Some(s) = snap else {
             ui.label("starting the engine");
@@ -322,6 +327,10 @@ pub fn status_ui(ui: &mut egui::Ui, snap: Option<&Snapshot>, frame_ms: (Option<f
         ui.label(format!("parts in conflict {conflicts}"));
         ui.separator();
         ui.label(format!("window {:.2} mm", s.window));
+        for e in extra {
+            ui.separator();
+            ui.label(e);
+        }
         if let Some(ms) = frame_ms.0 {
             ui.separator();
             ui.label(format!("ui {ms:.1} ms"))

@@ -8,11 +8,14 @@
 //! Settings (theme, last folder, recent files, schedule choices) are saved through
 //! eframe's storage; panel sizes are kept by egui's own memory.
 
+mod budget;
 mod canvas;
 mod caution;
 mod controls;
+mod copper;
 mod export;
 mod files;
+mod framebench;
 mod history;
 mod plots;
 mod scene;
@@ -32,9 +35,13 @@ use serde::{Deserialize, Serialize};
 use lehr::engine::{Command, EngineHandle, Event, Snapshot};
 use lehr::model::{Design, Point, Quarter};
 use lehr::place::{Schedule, Weights};
+use lehr::route::RouteOptions;
+use lehr::rules::ViolationKind;
 
 use canvas::Canvas;
 use controls::{ControlSettings, Controls};
+use copper::CopperPanel;
+pub use framebench::measure_frames;
 use plots::Plots;
 use scene::{Geometry, Palette, Static};
 use undo::{Edit, PartState, UndoStack};
@@ -84,6 +91,13 @@ pub enum Action {
     Reset,
     DescentOnly,
     Finish,
+    /// Route the parts where they stand (on the worker).
+    Route,
+    CancelRoute,
+    /// Check the design rules.
+    Check,
+    /// Zoom the canvas to this violation of the last check.
+    ShowViolation(usize),
     SetSchedule(Schedule),
     SetWeights(Weights),
     SetSpeed(u64),
@@ -197,6 +211,9 @@ pub struct LehrApp {
     canvas: Canvas,
     controls: Controls,
     plots: Plots,
+    copper: CopperPanel,
+    /// [`Snapshot::copper_version`] of the copper in `doc.design.board.copper`.
+    copper_version: Option<u64>,
     undo: UndoStack,
     actions: Vec<Action>,
     message: Option<Message>,
@@ -216,6 +233,10 @@ pub struct LehrApp {
     pub repaint: Duration,
     /// `repaint` was given on the command line: keep it.
     pub repaint_fixed: bool,
+    /// The CPU budget that sets the interval between pictures (real window only).
+    pub budget: Option<budget::Budget>,
+    /// The interval between pictures chosen in the last frame.
+    pub interval: Duration,
 }
 
 impl LehrApp {
@@ -244,6 +265,8 @@ impl LehrApp {
             canvas,
             controls: Controls::default(),
             plots: Plots::default(),
+            copper: CopperPanel::default(),
+            copper_version: None,
             undo: UndoStack::default(),
             actions: Vec::new(),
             message: None,
@@ -256,6 +279,8 @@ impl LehrApp {
             discarding: false,
             repaint: REPAINT,
             repaint_fixed: false,
+            budget: None,
+            interval: REPAINT,
         };
         app.rebuild_geometry();
         app
@@ -327,8 +352,82 @@ impl LehrApp {
                     for p in &s.samples {
                         self.plots.history.push(*p);
                     }
+                    if self.copper_version != Some(s.copper_version) {
+                        self.copper_version = Some(s.copper_version);
+                        self.doc.design.board.copper =
+                            s.copper.as_deref().cloned().unwrap_or_default();
+                        if s.copper.is_none() {
+                            self.st.routed.iter_mut().for_each(|r| *r = false);
+                        }
+                    }
+                    self.copper.note_snapshot(&s);
                     self.snap = Some(s);
                     self.geom_stale = true;
+                }
+                Event::RouteProgress(p) => self.copper.progress = Some(p),
+                Event::Routed(r) => {
+                    self.copper.routing = false;
+                    self.copper.progress = None;
+                    self.doc.dirty = true;
+                    let res = &r.result;
+                    let unrouted: std::collections::HashSet<&str> =
+                        res.unrouted.iter().map(|u| u.net.as_str()).collect();
+                    for (flag, net) in self.st.routed.iter_mut().zip(&self.doc.design.board.nets) {
+                        *flag = !unrouted.contains(net.name.as_str());
+                    }
+                    self.geom_stale = true;
+                    self.message = Some(Message {
+                        error: !res.unrouted.is_empty(),
+                        text: format!(
+                            "{}Routed {} of {} nets: {:.1} mm of track, {} vias, in {:.2} s.{}",
+                            if res.cancelled {
+                                "Routing stopped. "
+                            } else {
+                                ""
+                            },
+                            res.routed,
+                            res.nets,
+                            res.track_length_mm,
+                            res.vias,
+                            res.seconds,
+                            if res.unrouted.is_empty() {
+                                String::new()
+                            } else {
+                                format!(
+                                    " Not routed: {} (reasons under Copper).",
+                                    res.unrouted
+                                        .iter()
+                                        .take(6)
+                                        .map(|u| u.net.as_str())
+                                        .collect::<Vec<_>>()
+                                        .join(", ")
+                                        + if res.unrouted.len() > 6 { ", ..." } else { "" }
+                                )
+                            }
+                        ),
+                    });
+                    self.copper.routed = Some(r);
+                }
+                Event::Checked(c) => {
+                    self.copper.checking = false;
+                    if c.with_copper {
+                        let open: std::collections::HashSet<&str> = c
+                            .violations
+                            .iter()
+                            .filter(|v| v.kind == ViolationKind::Unconnected)
+                            .flat_map(|v| v.nets.iter().map(String::as_str))
+                            .collect();
+                        for (flag, net) in
+                            self.st.routed.iter_mut().zip(&self.doc.design.board.nets)
+                        {
+                            *flag = !open.contains(net.name.as_str());
+                        }
+                        self.geom_stale = true;
+                    }
+                    self.copper.checked = Some(c);
+                    self.copper.check_stale = false;
+                    self.copper.selected = None;
+                    self.copper.show_rules = true;
                 }
                 Event::Finished(f) => {
                     self.finishing = false;
@@ -356,6 +455,8 @@ impl LehrApp {
                 }
                 Event::Error(e) => {
                     self.finishing = false;
+                    self.copper.routing = false;
+                    self.copper.checking = false;
                     self.message = Some(Message {
                         error: true,
                         text: e,
@@ -363,6 +464,8 @@ impl LehrApp {
                 }
                 Event::Failed(e) => {
                     self.finishing = false;
+                    self.copper.routing = false;
+                    self.copper.checking = false;
                     self.message = Some(Message {
                         error: true,
                         text: e,
@@ -435,6 +538,8 @@ impl LehrApp {
         self.epoch = 0;
         self.plots.history.clear();
         self.controls.weights = None;
+        self.copper.reset();
+        self.copper_version = None;
         self.undo.clear();
         self.canvas.reset();
         self.message = None;
@@ -527,6 +632,17 @@ impl LehrApp {
                 self.finishing = true;
                 self.send(Command::Finish);
             }
+            Action::Route => {
+                self.copper.routing = true;
+                self.copper.progress = None;
+                self.send(Command::Route(RouteOptions::default()));
+            }
+            Action::CancelRoute => self.send(Command::CancelRoute),
+            Action::Check => {
+                self.copper.checking = true;
+                self.send(Command::Check);
+            }
+            Action::ShowViolation(i) => self.show_violation(i),
             Action::SetSchedule(s) => self.send(Command::SetSchedule(s)),
             Action::SetWeights(w) => self.send(Command::SetWeights(w)),
             Action::SetSpeed(n) => self.send(Command::SetMovesPerTick(n)),
@@ -635,6 +751,48 @@ impl LehrApp {
         }
     }
 
+    /// Zooms the canvas to a broken rule of the last check and marks it.
+    fn show_violation(&mut self, i: usize) {
+        let Some(v) = self
+            .copper
+            .checked
+            .as_ref()
+            .and_then(|c| c.violations.get(i))
+        else {
+            return;
+        };
+        self.copper.selected = Some(i);
+        let board = &self.doc.design.board;
+        let parts: Vec<u32> = v
+            .parts
+            .iter()
+            .filter_map(|r| board.parts.iter().position(|p| &p.reference == r))
+            .map(|k| k as u32)
+            .collect();
+        self.canvas.net = v
+            .nets
+            .first()
+            .and_then(|n| board.nets.iter().position(|x| &x.name == n))
+            .map(|k| k as u32);
+        if let Some(at) = v.at {
+            // Wide enough to show the parts involved, at least 6 mm.
+            let span = parts
+                .iter()
+                .filter_map(|&k| self.geom.parts.get(k as usize))
+                .map(|p| {
+                    let c = p.court;
+                    2.0 * (c.min.x - at.x)
+                        .abs()
+                        .max((c.max.x - at.x).abs())
+                        .max((c.min.y - at.y).abs())
+                        .max((c.max.y - at.y).abs())
+                })
+                .fold(6.0, f64::max)
+                .min(60.0);
+            self.canvas.show(at, span * 1.2, parts);
+        }
+    }
+
     /// A dialog gave no file: cancelled, or no dialog could be shown.
     fn no_dialog(&mut self) {
         self.message = Some(Message {
@@ -713,6 +871,12 @@ impl LehrApp {
             }
             if i.consume_shortcut(&KeyboardShortcut::new(cmd, Key::Enter)) {
                 out.push(Action::Finish);
+            }
+            if i.consume_shortcut(&KeyboardShortcut::new(cmd, Key::T)) {
+                out.push(Action::Route);
+            }
+            if i.consume_shortcut(&KeyboardShortcut::new(cmd, Key::K)) {
+                out.push(Action::Check);
             }
             if i.consume_key(Modifiers::NONE, Key::Space) {
                 out.push(if running { Action::Pause } else { Action::Run });
@@ -958,9 +1122,21 @@ impl LehrApp {
             });
         }
         let frame_ms = (self.frames.median(), self.frames.whole_median());
+        let extra = [
+            self.copper.status(self.snap.as_deref()),
+            self.copper.rules_status(),
+        ];
         egui::Panel::bottom("status").show(ui, |ui| {
-            controls::status_ui(ui, self.snap.as_deref(), frame_ms);
+            controls::status_ui(ui, self.snap.as_deref(), frame_ms, &extra);
         });
+        if self.copper.show_rules && self.copper.checked.is_some() {
+            egui::Panel::bottom("rules")
+                .resizable(true)
+                .default_size(150.0)
+                .show(ui, |ui| {
+                    self.copper.rules_ui(ui, &mut self.actions);
+                });
+        }
         egui::Panel::left("controls")
             .resizable(true)
             .default_size(270.0)
@@ -972,6 +1148,8 @@ impl LehrApp {
                         self.snap.as_deref(),
                         &mut self.actions,
                     );
+                    ui.separator();
+                    self.copper.ui(ui, self.snap.as_deref(), &mut self.actions);
                     ui.separator();
                     ui.heading("Part");
                     self.selection_ui(ui);
@@ -1037,10 +1215,20 @@ impl LehrApp {
         let running = self.snap.as_deref().is_some_and(|s| s.running);
         if running
             || self.finishing
+            || self.copper.routing
+            || self.copper.checking
             || Instant::now() < self.expect_until
             || self.canvas.dragging().is_some()
         {
-            ctx.request_repaint_after(self.frames.repaint_interval(self.repaint));
+            let fallback = self.frames.repaint_interval(self.repaint);
+            self.interval = match &mut self.budget {
+                Some(b) if running => b.update(fallback),
+                _ => fallback,
+            };
+            ctx.request_repaint_after(self.interval);
+        }
+        if !running && let Some(b) = &mut self.budget {
+            b.pause();
         }
         self.frames.push(t0.elapsed().as_secs_f64() * 1e3);
     }
@@ -1060,6 +1248,20 @@ struct Measure {
     seconds: f64,
     start: Instant,
     started: bool,
+    /// Process and engine CPU seconds at the start.
+    cpu0: Option<(f64, f64)>,
+}
+
+/// Shares of a core over `wall` seconds since `cpu0`: the engine's and the rest of the
+/// process's (the window and the renderer's threads), from `/proc` (Linux).
+fn cpu_shares(cpu0: Option<(f64, f64)>, wall: f64) -> (Option<f64>, Option<f64>) {
+    match (cpu0, budget::cpu_seconds()) {
+        (Some((p0, e0)), Some((p1, e1))) if wall > 0.0 => (
+            Some((e1 - e0) / wall),
+            Some(((p1 - p0) - (e1 - e0)).max(0.0) / wall),
+        ),
+        _ => (None, None),
+    }
 }
 
 /// The eframe side: the app plus what only a real window has.
@@ -1083,6 +1285,16 @@ fn gl_renderer(frame: &eframe::Frame) -> Option<String> {
 }
 
 impl eframe::App for Window {
+    /// The canvas's background, so the canvas need not paint it again.
+    fn clear_color(&self, visuals: &egui::Visuals) -> [f32; 4] {
+        let pal = if visuals.dark_mode {
+            Palette::dark()
+        } else {
+            Palette::light()
+        };
+        pal.background.to_normalized_gamma_f32()
+    }
+
     fn ui(&mut self, ui: &mut egui::Ui, frame: &mut eframe::Frame) {
         if !self.renderer_checked {
             self.renderer_checked = true;
@@ -1108,15 +1320,18 @@ impl eframe::App for Window {
             if !m.started {
                 m.started = true;
                 m.start = Instant::now();
+                m.cpu0 = budget::cpu_seconds();
                 self.app.frames.keep_all = true;
                 self.app.push(Action::Run);
             }
-            ui.ctx()
-                .request_repaint_after(self.app.frames.repaint_interval(self.app.repaint));
+            ui.ctx().request_repaint_after(self.app.interval);
             let done = self.app.snapshot().is_some_and(|s| s.done && s.moves > 0);
             if done || m.start.elapsed().as_secs_f64() >= m.seconds {
                 let s = self.app.snapshot();
+                let (engine_cpu, other_cpu) = cpu_shares(m.cpu0, m.start.elapsed().as_secs_f64());
                 let report = serde_json::json!({
+                    "engine_share_of_a_core": engine_cpu,
+                    "rest_share_of_a_core": other_cpu,
                     "parts": self.app.design().board.parts.len(),
                     "seconds": m.start.elapsed().as_secs_f64(),
                     "frames": self.app.frames.all.len(),
@@ -1129,6 +1344,8 @@ impl eframe::App for Window {
                     "mean_moves_per_second": s.map(|s| s.moves as f64 / m.start.elapsed().as_secs_f64()),
                     "done": s.map(|s| s.done),
                     "repaint_min_ms": self.app.repaint.as_secs_f64() * 1e3,
+                    "interval_ms": self.app.interval.as_secs_f64() * 1e3,
+                    "window_share_of_a_core": self.app.budget.as_ref().and_then(|b| b.share),
                 });
                 println!("{report}");
                 self.app.quit_ok = true;
@@ -1240,13 +1457,18 @@ pub fn run_window(board: Option<&Path>, o: &OpenOptions) -> Result<()> {
             if let Some(ms) = repaint_ms {
                 app.repaint = Duration::from_millis(ms);
                 app.repaint_fixed = true;
+            } else {
+                app.budget = Some(budget::Budget::default());
             }
+            // The window clears to the canvas's background colour (see `clear_color`).
+            app.canvas.paint_background = false;
             Ok(Box::new(Window {
                 app,
                 measure: measure.map(|seconds| Measure {
                     seconds,
                     start: Instant::now(),
                     started: false,
+                    cpu0: None,
                 }),
                 cpu_ms: Vec::new(),
                 renderer_checked: false,
@@ -1268,13 +1490,17 @@ pub fn measure_headless(board: Option<&Path>, seconds: f64) -> Result<()> {
     h.send(Command::SetMovesPerTick(20_000));
     h.send(Command::Run);
     let start = Instant::now();
+    let cpu0 = budget::cpu_seconds();
     let mut last: Option<Arc<Snapshot>> = None;
     while start.elapsed().as_secs_f64() < seconds && !last.as_ref().is_some_and(|s| s.done) {
         if let Some(Event::Snapshot(s)) = h.recv_timeout(Duration::from_millis(50)) {
             last = Some(s);
         }
     }
+    let (engine_cpu, other_cpu) = cpu_shares(cpu0, start.elapsed().as_secs_f64());
     let report = serde_json::json!({
+        "engine_share_of_a_core": engine_cpu,
+        "rest_share_of_a_core": other_cpu,
         "parts": parts,
         "seconds": start.elapsed().as_secs_f64(),
         "moves": last.as_ref().map(|s| s.moves),

@@ -133,6 +133,8 @@ pub struct Static {
     pub pad_net: Vec<Vec<Option<u32>>>,
     pub outline: Vec<Point>,
     pub keepouts: Vec<Vec<Point>>,
+    /// Per net: its copper connects all its pins, so no unrouted lines are drawn for it.
+    pub routed: Vec<bool>,
 }
 
 impl Static {
@@ -156,6 +158,7 @@ impl Static {
                 .iter()
                 .map(|k| k.shape.vertices())
                 .collect(),
+            routed: vec![false; design.board.nets.len()],
         }
     }
 }
@@ -230,7 +233,7 @@ impl Geometry {
         let mut unrouted = Vec::new();
         let mut pts = Vec::new();
         for (net, pins) in design.net_pins.iter().enumerate() {
-            if pins.len() < 2 {
+            if pins.len() < 2 || st.routed.get(net).copied().unwrap_or(false) {
                 continue;
             }
             pts.clear();
@@ -351,11 +354,15 @@ pub fn draw(
         };
         for t in copper.tracks.iter().filter(|t| t.layer == layer) {
             let w = (t.width as f32 * s).max(1.0);
+            // Round joints and ends only where they can be seen.
+            let round = w >= 2.5;
             for seg in t.points.windows(2) {
                 pen.line(seg[0], seg[1], w, c);
-                pen.fill_circle(seg[1], t.width / 2.0, c);
+                if round {
+                    pen.fill_circle(seg[1], t.width / 2.0, c);
+                }
             }
-            if let Some(p) = t.points.first() {
+            if let Some(p) = t.points.first().filter(|_| round) {
                 pen.fill_circle(*p, t.width / 2.0, c);
             }
         }
@@ -370,6 +377,23 @@ pub fn draw(
             continue;
         }
         let i = i as u32;
+        let (edge, w) = if Some(i) == m.selected {
+            (pal.selected, 2.5)
+        } else if p.conflicts != 0 {
+            (pal.conflict, 2.0)
+        } else if Some(i) == m.hovered_part {
+            (pal.hovered, 1.5)
+        } else if p.locked {
+            (pal.locked_edge, 1.5)
+        } else {
+            (pal.courtyard, 1.0)
+        };
+        // A part only a few pixels across is drawn as one block in its edge colour: an
+        // outline costs eight triangles, and a software renderer pays for each.
+        if p.court.width().min(p.court.height()) * pen.scale() < 8.0 {
+            pen.fill_rect(&p.court, edge.gamma_multiply(0.55));
+            continue;
+        }
         pen.fill_rect(
             &p.court,
             if p.locked {
@@ -406,17 +430,6 @@ pub fn draw(
                 pen.fill_circle(pad.rect.center(), d / 2.0, pal.drill);
             }
         }
-        let (edge, w) = if Some(i) == m.selected {
-            (pal.selected, 2.5)
-        } else if p.conflicts != 0 {
-            (pal.conflict, 2.0)
-        } else if Some(i) == m.hovered_part {
-            (pal.hovered, 1.5)
-        } else if p.locked {
-            (pal.locked_edge, 1.5)
-        } else {
-            (pal.courtyard, 1.0)
-        };
         pen.stroke_rect(&p.court, w, edge);
         if p.conflicts != 0 && Some(i) == m.selected {
             pen.stroke_rect(&p.court.inflate(2.5 / pen.scale()), 1.5, pal.conflict);

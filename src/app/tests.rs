@@ -347,3 +347,123 @@ fn finish_reports_in_the_window() {
         },
     );
 }
+
+/// The built-in sample board placed as `lehr place --seed 1` would place it.
+fn placed_sample() -> lehr::model::Design {
+    let d = lehr::io::parse_board(crate::cli::SAMPLE_BOARD, crate::cli::SAMPLE_NAME).unwrap();
+    let opts = lehr::place::AnnealOptions {
+        seed: 1,
+        ..lehr::place::AnnealOptions::default()
+    };
+    let placed = lehr::place::place(&d, &opts, |_| true).expect("the sample places");
+    resolve(placed.board).expect("a placed board is valid")
+}
+
+#[test]
+fn route_draws_copper_counts_the_nets_and_saves_it() {
+    let design = placed_sample();
+    let nets = design.net_pins.iter().filter(|p| p.len() >= 2).count();
+    let mut h = harness(LehrApp::new(design, None, "dimmer".into(), slow()));
+    wait_until(&mut h, "the first snapshot arrives", |a| {
+        a.snapshot().is_some()
+    });
+    assert!(h.state().design().board.copper.tracks.is_empty());
+    let lines_before = h.state().geom.unrouted.len();
+    h.get_by_label("Route").click();
+    wait_until(&mut h, "the copper arrives", |a| {
+        !a.design().board.copper.tracks.is_empty() && !a.copper.routing
+    });
+    h.run_steps(2);
+    let r = h.state().copper.routed.clone().expect("a route result");
+    assert_eq!(r.result.nets, nets);
+    let count = format!("{} of {} nets routed", r.result.routed, r.result.nets);
+    // The panel and the status line both show the count.
+    h.get_by_label_contains(&format!("{count}:"));
+    h.get_by_label_contains(&format!("copper: {count}"));
+    // Routed nets lose their straight unrouted lines.
+    assert!(h.state().geom.unrouted.len() < lines_before);
+    assert!(h.state().is_dirty());
+
+    // Save writes the copper into the board file.
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("dimmer.board.ron");
+    h.state_mut().save_to(&path);
+    let saved = lehr::io::load_board(&path).expect("the saved board loads");
+    assert_eq!(saved.board.copper, r.result.copper);
+
+    // Annealing again moves parts: the copper goes, and the status line says so.
+    h.get_by_label("Run").click();
+    wait_until(&mut h, "the copper is removed", |a| {
+        a.design().board.copper.tracks.is_empty()
+    });
+    h.get_by_label("Pause").click();
+    h.run_steps(2);
+    h.get_by_label_contains("copper removed: parts moved after routing");
+}
+
+#[test]
+fn the_rule_panel_lists_a_broken_board_and_shows_where() {
+    let design = placed_sample();
+    let mut h = harness(LehrApp::new(design, None, "dimmer".into(), slow()));
+    wait_until(&mut h, "the first snapshot arrives", |a| {
+        a.snapshot().is_some()
+    });
+    // Break the board: an unlocked part dropped onto another.
+    let d = h.state().design().clone();
+    let free: Vec<u32> = (0..d.board.parts.len() as u32)
+        .filter(|&i| !d.board.parts[i as usize].locked)
+        .take(2)
+        .collect();
+    let (a, b) = (free[0], free[1]);
+    let s = h.state().snapshot().unwrap();
+    let (at_b, q) = (s.positions[b as usize], s.quarters[a as usize]);
+    let before = h.state().part_state(a).unwrap();
+    h.state_mut().push(Action::MovePart {
+        part: a,
+        before,
+        at: at_b,
+        quarter: q,
+    });
+    wait_until(&mut h, "the part moves", |app| {
+        app.snapshot().unwrap().positions[a as usize] == at_b
+    });
+    h.get_by_label("Check").click();
+    wait_until(&mut h, "the check answers", |app| {
+        app.copper.checked.is_some()
+    });
+    h.run_steps(2);
+    let c = h.state().copper.checked.clone().unwrap();
+    let (ref_a, ref_b) = (
+        d.board.parts[a as usize].reference.clone(),
+        d.board.parts[b as usize].reference.clone(),
+    );
+    let k = c
+        .violations
+        .iter()
+        .position(|v| {
+            v.kind == lehr::rules::ViolationKind::CourtyardOverlap
+                && v.parts.contains(&ref_a)
+                && v.parts.contains(&ref_b)
+        })
+        .expect("the overlap is listed");
+    let at = c.violations[k].at.expect("an overlap has a place");
+    let n = c.violations.len();
+    // The count is in the status line; the list shows the overlap.
+    assert!(n > 1);
+    h.get_by_label(&format!("{n} broken rules"));
+    let scale_before = h.state().canvas.scale();
+    // Click the row of this violation (rows are labelled by kind, message, parts, nets).
+    let row = format!("parts overlap: {}", c.violations[k].message);
+    // (The row may be scrolled out of sight in the list: click it the way assistive
+    // technology does.)
+    h.get_by_label_contains(&row).click_accesskit();
+    h.run_steps(2);
+    let centre = h.state().canvas.center();
+    assert!(
+        (centre.x - at.x).abs() < 1e-9 && (centre.y - at.y).abs() < 1e-9,
+        "{centre:?} vs {at:?}"
+    );
+    assert_ne!(h.state().canvas.scale(), scale_before, "the view zooms");
+    assert_eq!(h.state().copper.selected, Some(k));
+    assert!(h.state().canvas.marker.is_some());
+}

@@ -137,3 +137,157 @@ fn conflicts_mark_overlapping_and_outside_parts() {
     let s = wait_for(&h, |s| s.positions[2].x == -1000.0);
     assert_eq!(s.conflicts[2], CONFLICT_OUTSIDE);
 }
+
+// Routing and checking through the worker. The board is the hand-placed one the router's
+// own tests use (tests/it/boards.rs); what the worker sends is compared with calling the
+// library directly, and with what the copper must mean for the checker.
+
+use lehr::engine::{Checked, Routed};
+use lehr::route::{RouteOptions, route};
+use lehr::rules::{ViolationKind, check};
+
+/// Waits for the first event that `f` picks, up to 60 s (debug builds route slowly).
+fn wait_event<T>(h: &EngineHandle, what: &str, f: impl Fn(Event) -> Option<T>) -> T {
+    let end = Instant::now() + Duration::from_secs(60);
+    while Instant::now() < end {
+        if let Some(ev) = h.recv_timeout(Duration::from_millis(100))
+            && let Some(t) = f(ev)
+        {
+            return t;
+        }
+    }
+    panic!("no {what} within 60 s");
+}
+
+fn routed(h: &EngineHandle) -> Box<Routed> {
+    wait_event(h, "route result", |e| match e {
+        Event::Routed(r) => Some(r),
+        Event::Error(e) | Event::Failed(e) => panic!("{e}"),
+        _ => None,
+    })
+}
+
+fn checked(h: &EngineHandle) -> Box<Checked> {
+    wait_event(h, "check result", |e| match e {
+        Event::Checked(c) => Some(c),
+        Event::Error(e) | Event::Failed(e) => panic!("{e}"),
+        _ => None,
+    })
+}
+
+fn small() -> lehr::model::Design {
+    super::boards::design(super::boards::small_board())
+}
+
+#[test]
+fn route_on_the_worker_gives_the_libraries_copper_and_keeps_it_until_a_part_moves() {
+    let d = small();
+    // The same board routed by the library directly (the router is deterministic).
+    let cancel = std::sync::atomic::AtomicBool::new(false);
+    let direct = route(&d, &RouteOptions::default(), &cancel, &mut |_| {}).unwrap();
+    let h = EngineHandle::spawn(d.clone(), AnnealOptions::default());
+    let s0 = wait_for(&h, |_| true);
+    assert!(
+        s0.copper.is_none(),
+        "the test board has no copper of its own"
+    );
+    h.send(Command::Route(RouteOptions::default()));
+    let r = routed(&h);
+    assert!(!r.result.cancelled);
+    assert_eq!(r.result.nets, 6);
+    assert_eq!(r.result.routed, direct.routed);
+    assert_eq!(r.result.copper, direct.copper);
+    assert_eq!(r.board.copper, direct.copper);
+    // The board the worker routed passes the independent checker.
+    let v = check(&super::boards::design(r.board.clone()));
+    assert!(v.is_empty(), "{v:#?}");
+    let s = wait_for(&h, |s| s.copper.is_some());
+    assert_eq!(s.copper.as_deref(), Some(&direct.copper));
+    assert!(s.copper_cleared.is_none());
+    let version = s.copper_version;
+
+    // A check on the worker sees the copper: every rule holds.
+    h.send(Command::Check);
+    let c = checked(&h);
+    assert!(c.with_copper);
+    assert!(c.violations.is_empty(), "{:#?}", c.violations);
+    assert_eq!(c.positions, s.positions);
+
+    // Moving a part by hand drops the copper, and the snapshot says why.
+    h.send(Command::MovePart {
+        part: 2,
+        at: lehr::model::Point::new(s.positions[2].x + 1.0, s.positions[2].y),
+        quarter: s.quarters[2],
+    });
+    let s2 = wait_for(&h, |s| s.copper_version != version);
+    assert!(s2.copper.is_none());
+    assert!(s2.copper_cleared.as_deref().unwrap().contains("moved"));
+}
+
+#[test]
+fn annealing_after_routing_drops_the_copper() {
+    let h = EngineHandle::spawn(small(), AnnealOptions::default());
+    wait_for(&h, |_| true);
+    h.send(Command::Route(RouteOptions::default()));
+    routed(&h);
+    wait_for(&h, |s| s.copper.is_some());
+    h.send(Command::SetMovesPerTick(200));
+    h.send(Command::Run);
+    let s = wait_for(&h, |s| s.moves > 0 && s.copper.is_none());
+    assert!(s.copper_cleared.is_some());
+    h.send(Command::Pause);
+}
+
+#[test]
+fn a_cancelled_route_stops_with_legal_copper() {
+    let h = EngineHandle::spawn(small(), AnnealOptions::default());
+    wait_for(&h, |_| true);
+    // The cancel flag is raised as the command is sent, so the route stops before its
+    // first net: nothing is routed and every net says why.
+    h.send(Command::Route(RouteOptions::default()));
+    h.send(Command::CancelRoute);
+    let r = routed(&h);
+    assert!(r.result.cancelled);
+    assert_eq!(r.result.routed + r.result.unrouted.len(), r.result.nets);
+    assert!(r.result.routed < r.result.nets);
+    let v = check(&super::boards::design(r.board.clone()));
+    assert!(
+        v.iter().all(|v| v.kind == ViolationKind::Unconnected),
+        "{v:#?}"
+    );
+    // A new route after the cancel runs to the end.
+    h.send(Command::Route(RouteOptions::default()));
+    let r = routed(&h);
+    assert!(!r.result.cancelled);
+    assert_eq!(r.result.routed, r.result.nets, "{:?}", r.result.unrouted);
+}
+
+#[test]
+fn a_check_names_overlapping_parts() {
+    let h = EngineHandle::spawn(small(), AnnealOptions::default());
+    let s0 = wait_for(&h, |_| true);
+    // R2 (part 3) dropped on top of R1 (part 2): their courtyards overlap, which is plain
+    // geometry; and without copper every net's pins are unconnected.
+    h.send(Command::MovePart {
+        part: 3,
+        at: s0.positions[2],
+        quarter: s0.quarters[2],
+    });
+    wait_for(&h, |s| s.positions[3] == s0.positions[2]);
+    h.send(Command::Check);
+    let c = checked(&h);
+    assert!(!c.with_copper);
+    let overlap = c
+        .violations
+        .iter()
+        .find(|v| v.kind == ViolationKind::CourtyardOverlap)
+        .expect("an overlap");
+    assert!(overlap.parts.contains(&"R1".to_string()));
+    assert!(overlap.parts.contains(&"R2".to_string()));
+    assert!(overlap.at.is_some());
+    assert!(
+        c.violations
+            .iter()
+            .any(|v| v.kind == ViolationKind::Unconnected)
+    );
+}
