@@ -559,7 +559,8 @@ impl Worker {
         let events = self.events.clone();
         let mut last: Option<Instant> = None;
         let mut progress = |p: &RouteProgress| {
-            if last.is_none_or(|t| t.elapsed() >= ROUTE_PROGRESS_INTERVAL) {
+            // Reports that carry the copper so far always go out (the router spaces them).
+            if p.copper.is_some() || last.is_none_or(|t| t.elapsed() >= ROUTE_PROGRESS_INTERVAL) {
                 last = Some(Instant::now());
                 let _ = events.send(Event::RouteProgress(p.clone()));
             }

@@ -364,7 +364,15 @@ impl LehrApp {
                     self.snap = Some(s);
                     self.geom_stale = true;
                 }
-                Event::RouteProgress(p) => self.copper.progress = Some(p),
+                Event::RouteProgress(mut p) => {
+                    // Copper as it appears; the final copper comes with the snapshot
+                    // after `Routed`.
+                    if let Some(c) = p.copper.take() {
+                        self.doc.design.board.copper = c;
+                        self.geom_stale = true;
+                    }
+                    self.copper.progress = Some(p);
+                }
                 Event::Routed(r) => {
                     self.copper.routing = false;
                     self.copper.progress = None;

@@ -243,7 +243,9 @@ pub fn fanout_margins(design: &Design) -> Vec<f64> {
     for (ni, pins) in design.net_pins.iter().enumerate() {
         let (w, c) = design
             .net_class(crate::model::board::NetId(ni as u32))
-            .map_or((rules.track_width, rules.clearance), |k| (k.track_width, k.clearance));
+            .map_or((rules.track_width, rules.clearance), |k| {
+                (k.track_width, k.clearance)
+            });
         for pin in pins {
             let e = &mut widest[pin.part.index()];
             let (w0, c0) = e.unwrap_or((0.0, 0.0));

@@ -113,7 +113,14 @@ pub struct RouteProgress {
     pub conflicting_nets: usize,
     /// Time since routing started.
     pub seconds: f64,
+    /// The copper of the nets routed so far (shared space and all, while negotiating),
+    /// attached to at most one report every [`LIVE_COPPER_INTERVAL_S`], so a viewer can
+    /// draw the copper as it appears.
+    pub copper: Option<crate::model::board::Copper>,
 }
+
+/// Shortest time between two progress reports that carry the copper so far, seconds.
+pub const LIVE_COPPER_INTERVAL_S: f64 = 0.2;
 
 /// A net the router could not finish, and why.
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]

@@ -161,6 +161,8 @@ pub(crate) struct Router<'a> {
     mark_generation: u32,
     present_factor: f64,
     passes: u32,
+    /// When the last progress report with copper went out, seconds from the start.
+    copper_shown: std::cell::Cell<f64>,
 }
 
 impl<'a> Router<'a> {
@@ -396,6 +398,7 @@ impl<'a> Router<'a> {
             mark_generation: 0,
             present_factor: opts.present_factor,
             passes: 0,
+            copper_shown: std::cell::Cell::new(0.0),
         })
     }
 
@@ -660,6 +663,12 @@ impl<'a> Router<'a> {
         of: usize,
         conflicting: usize,
     ) -> RouteProgress {
+        let seconds = self.start.elapsed().as_secs_f64();
+        let copper =
+            (seconds - self.copper_shown.get() >= super::LIVE_COPPER_INTERVAL_S).then(|| {
+                self.copper_shown.set(seconds);
+                self.result(false).copper
+            });
         RouteProgress {
             phase,
             pass: self.passes.max(1),
@@ -667,7 +676,8 @@ impl<'a> Router<'a> {
             done_in_pass: done,
             nets_in_pass: of,
             conflicting_nets: conflicting,
-            seconds: self.start.elapsed().as_secs_f64(),
+            seconds,
+            copper,
         }
     }
 

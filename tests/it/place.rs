@@ -1975,3 +1975,48 @@ fn multilevel_keeps_locked_parts_and_is_reproducible() {
     assert!(a.history.windows(2).all(|w| w[0].moves <= w[1].moves));
     assert_eq!(a.history.last().unwrap().moves, a.report.moves);
 }
+
+/// Fan-out room: a TSSOP (0.65 mm pitch, JEDEC MO-153) keeps 2 (w + c) + c clear around
+/// it for its widest net class; a SOIC (1.27 mm, JEDEC MS-012) and an unconnected
+/// TSSOP keep nothing extra. The band is part of the overlap the energy counts.
+#[test]
+fn fine_pitch_parts_keep_a_fanout_band() {
+    let mut b = board(
+        "fan-out",
+        rect_shape(0.0, 0.0, 40.0, 40.0),
+        rules(0.5, 0.2),
+        vec![
+            part("U1", FootprintSpec::Tssop(8), Some((10.0, 10.0))),
+            part("U2", FootprintSpec::Soic(8), Some((30.0, 10.0))),
+            part("U3", FootprintSpec::Tssop(8), Some((10.0, 30.0))),
+        ],
+        vec![
+            net("A", &["U1.1", "U2.1"], 1.0),
+            Net {
+                class: Some("power".into()),
+                ..net("B", &["U1.2", "U2.2"], 1.0)
+            },
+        ],
+    );
+    b.classes.push(lehr::model::board::NetClass {
+        name: "power".into(),
+        track_width: 0.5,
+        clearance: 0.3,
+        current: None,
+        voltage: None,
+        temp_rise: None,
+    });
+    let d = design(b);
+    let m = lehr::place::layout::fanout_margins(&d);
+    // Widest of the default rules (track d.board.rules.track_width, clearance 0.2) and
+    // the power class (0.5, 0.3).
+    let w = d.board.rules.track_width.max(0.5);
+    let c: f64 = 0.3;
+    assert!((m[0] - (2.0 * (w + c) + c)).abs() < 1e-12, "{m:?}");
+    assert_eq!(m[1], 0.0);
+    assert_eq!(m[2], 0.0);
+    let layout = Layout::new(&d).unwrap();
+    let grown = layout.grown_courtyard(0);
+    let court = layout.courtyard(0);
+    assert!((grown.width() - court.width() - 2.0 * (0.1 + m[0])).abs() < 1e-9);
+}
