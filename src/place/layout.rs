@@ -227,10 +227,16 @@ fn layers_mask(l: Layers) -> u8 {
     }
 }
 
-/// Pins at most this far apart (centre to centre, mm) make a part fine-pitch: 0.65 mm
+/// Pins at most this far apart (centre to centre, mm) make a part of at least
+/// [`FINE_PITCH_MIN_PINS`] pins fine-pitch: 0.65 mm
 /// (TSSOP) and below, the pitches at which tracks leave between the pins one at a time
 /// and need room outside the part to spread (common practice).
 pub const FINE_PITCH_MM: f64 = 0.65;
+
+/// Fine-pitch parts have at least this many pins (the smallest such packages, SC-70-6
+/// and TSSOP-8, have six and eight): a two- or three-pin part with close pads leaves
+/// its pads from the sides.
+pub const FINE_PITCH_MIN_PINS: usize = 6;
 
 /// Extra room each part keeps free of other parts, beyond half the clearance: for a
 /// fine-pitch part, a fan-out band for two tracks and their clearances,
@@ -258,12 +264,13 @@ pub fn fanout_margins(design: &Design) -> Vec<f64> {
         .zip(widest)
         .map(|(fp, wc)| {
             let Some((w, c)) = wc else { return 0.0 };
-            let fine = fp.pads.iter().enumerate().any(|(k, a)| {
-                fp.pads[k + 1..].iter().any(|b| {
-                    let d = ((a.at.x - b.at.x).powi(2) + (a.at.y - b.at.y).powi(2)).sqrt();
-                    d > 1e-9 && d <= FINE_PITCH_MM + 1e-9
-                })
-            });
+            let fine = fp.pads.len() >= FINE_PITCH_MIN_PINS
+                && fp.pads.iter().enumerate().any(|(k, a)| {
+                    fp.pads[k + 1..].iter().any(|b| {
+                        let d = ((a.at.x - b.at.x).powi(2) + (a.at.y - b.at.y).powi(2)).sqrt();
+                        d > 1e-9 && d <= FINE_PITCH_MM + 1e-9
+                    })
+                });
             if fine { 2.0 * (w + c) + c } else { 0.0 }
         })
         .collect()
