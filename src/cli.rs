@@ -255,15 +255,19 @@ fn place_cmd(a: PlaceArgs) -> Result<ExitCode> {
 /// `dir/name.board.ron` -> `dir/name.SUFFIX.board.ron`: where a command writes its result
 /// when no `--out` is given.
 pub fn with_suffix(input: &Path, suffix: &str) -> PathBuf {
-    let file = input
-        .file_name()
-        .and_then(|f| f.to_str())
-        .unwrap_or("board.ron");
-    let stem = file
-        .strip_suffix(".board.ron")
-        .or_else(|| file.strip_suffix(".ron"))
-        .unwrap_or(file);
+    let stem = board_stem(input).unwrap_or("board");
     input.with_file_name(format!("{stem}.{suffix}.board.ron"))
+}
+
+/// A board file's name without `.board.ron` (or `.ron`); `None` if it has no name that
+/// is text.
+pub fn board_stem(path: &Path) -> Option<&str> {
+    let file = path.file_name().and_then(|f| f.to_str())?;
+    Some(
+        file.strip_suffix(".board.ron")
+            .or_else(|| file.strip_suffix(".ron"))
+            .unwrap_or(file),
+    )
 }
 
 /// Runs a placement, with a progress line on a terminal.

@@ -43,14 +43,7 @@ pub struct ExportArgs {
 /// The name Gerber files start with: the board file's name without `.board.ron` (or
 /// `.ron`), with anything but letters, digits, `.`, `_` and `-` made `_`.
 pub fn file_stem(board: &Path) -> String {
-    let file = board
-        .file_name()
-        .and_then(|f| f.to_str())
-        .unwrap_or("board");
-    let stem = file
-        .strip_suffix(".board.ron")
-        .or_else(|| file.strip_suffix(".ron"))
-        .unwrap_or(file);
+    let stem = crate::cli::board_stem(board).unwrap_or("board");
     let s: String = stem
         .chars()
         .map(|c| {

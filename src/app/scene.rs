@@ -139,18 +139,12 @@ pub struct Static {
 
 impl Static {
     pub fn new(design: &Design) -> Static {
-        let mut pad_net: Vec<Vec<Option<u32>>> = design
-            .footprints
-            .iter()
-            .map(|f| vec![None; f.pads.len()])
-            .collect();
-        for (net, pins) in design.net_pins.iter().enumerate() {
-            for pin in pins {
-                pad_net[pin.part.index()][pin.pad as usize] = Some(net as u32);
-            }
-        }
         Static {
-            pad_net,
+            pad_net: design
+                .pad_nets()
+                .into_iter()
+                .map(|p| p.into_iter().map(|n| n.map(|n| n.0)).collect())
+                .collect(),
             outline: design.board.outline.vertices(),
             keepouts: design
                 .board

@@ -144,16 +144,7 @@ impl BoardPad {
 /// Every pad of every placed part, in part order then pad order. Unplaced parts are left
 /// out (see [`warnings`]).
 pub fn board_pads(design: &Design) -> Vec<BoardPad> {
-    let mut pad_net: Vec<Vec<Option<usize>>> = design
-        .footprints
-        .iter()
-        .map(|f| vec![None; f.pads.len()])
-        .collect();
-    for (net, pins) in design.net_pins.iter().enumerate() {
-        for pin in pins {
-            pad_net[pin.part.index()][pin.pad as usize] = Some(net);
-        }
-    }
+    let pad_net = design.pad_nets();
     let mut out = Vec::new();
     for (i, (part, fp)) in design
         .board
@@ -169,7 +160,7 @@ pub fn board_pads(design: &Design) -> Vec<BoardPad> {
             out.push(BoardPad {
                 reference: part.reference.clone(),
                 number: pad.number.clone(),
-                net: pad_net[i][k].map(|n| design.board.nets[n].name.clone()),
+                net: pad_net[i][k].map(|n| design.board.nets[n.index()].name.clone()),
                 at: to_board(pad.at, at, q, part.side),
                 width,
                 height,

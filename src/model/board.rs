@@ -381,6 +381,22 @@ impl Design {
         ))
     }
 
+    /// For every part, for every pad: the net it is on, if any (`net_pins` turned
+    /// around).
+    pub fn pad_nets(&self) -> Vec<Vec<Option<NetId>>> {
+        let mut out: Vec<Vec<Option<NetId>>> = self
+            .footprints
+            .iter()
+            .map(|f| vec![None; f.pads.len()])
+            .collect();
+        for (net, pins) in self.net_pins.iter().enumerate() {
+            for pin in pins {
+                out[pin.part.index()][pin.pad as usize] = Some(NetId(net as u32));
+            }
+        }
+        out
+    }
+
     /// Class of a net, if it names one.
     pub fn net_class(&self, net: NetId) -> Option<&NetClass> {
         let name = self.board.nets[net.index()].class.as_deref()?;

@@ -382,16 +382,7 @@ impl Layout {
         };
 
         // Which net each pad is on.
-        let mut pad_net: Vec<Vec<Option<u32>>> = design
-            .footprints
-            .iter()
-            .map(|f| vec![None; f.pads.len()])
-            .collect();
-        for (ni, pins) in design.net_pins.iter().enumerate() {
-            for pin in pins {
-                pad_net[pin.part.index()][pin.pad as usize] = Some(ni as u32);
-            }
-        }
+        let pad_net = design.pad_nets();
 
         let fanout = fanout_margins(design);
         let mut part_pins_of_net: Vec<Vec<u32>> = vec![Vec::new(); board.nets.len()];
@@ -418,8 +409,8 @@ impl Layout {
                 if let Some(net) = net {
                     let offs = Quarter::ALL.map(|q| to_board(pad.at, origin, q, side));
                     rotatable |= offs.iter().any(|o| *o != offs[0]);
-                    part_pins_of_net[*net as usize].push(layout.pin_net.len() as u32);
-                    layout.pin_net.push(*net);
+                    part_pins_of_net[net.index()].push(layout.pin_net.len() as u32);
+                    layout.pin_net.push(net.0);
                     layout.pin_part.push(i as u32);
                     layout.pin_off.push(offs);
                 }
