@@ -57,6 +57,83 @@ pub fn file_stem(board: &Path) -> String {
     if s.is_empty() { "board".into() } else { s }
 }
 
+/// Where each export goes; `None` leaves it out.
+#[derive(Clone, Debug, Default)]
+pub struct Targets {
+    pub svg: Option<PathBuf>,
+    pub png: Option<PathBuf>,
+    /// The folder for the Gerber files, named `STEM-LAYER.gbr`.
+    pub gerber: Option<PathBuf>,
+    pub drill: Option<PathBuf>,
+    pub centroid: Option<PathBuf>,
+}
+
+impl Targets {
+    /// Every fabrication file and the SVG picture in one folder, named after `stem`.
+    pub fn all_in(dir: &Path, stem: &str) -> Targets {
+        Targets {
+            svg: Some(dir.join(format!("{stem}.svg"))),
+            png: None,
+            gerber: Some(dir.to_path_buf()),
+            drill: Some(dir.join(format!("{stem}.drl"))),
+            centroid: Some(dir.join(format!("{stem}-centroid.csv"))),
+        }
+    }
+}
+
+/// The contents of every file `targets` names, before anything is written (the CLI and
+/// the window both write them with [`write_files`]).
+pub fn build_files(
+    design: &lehr::model::Design,
+    stem: &str,
+    targets: &Targets,
+    opts: &FabOptions,
+) -> Result<Vec<(PathBuf, Vec<u8>)>> {
+    let mut files: Vec<(PathBuf, Vec<u8>)> = Vec::new();
+    if let Some(p) = &targets.svg {
+        files.push((p.clone(), crate::app::svg::board_svg(design).into_bytes()));
+    }
+    if let Some(p) = &targets.png {
+        let bytes = crate::app::svg::board_png(design)
+            .map_err(|e| anyhow!("cannot draw the PNG picture: {e}"))?;
+        files.push((p.clone(), bytes));
+    }
+    if let Some(dir) = &targets.gerber {
+        for layer in GerberLayer::ALL {
+            let text = gerber(design, layer, opts)?;
+            files.push((
+                dir.join(format!("{stem}-{}.gbr", layer.name())),
+                text.into_bytes(),
+            ));
+        }
+    }
+    if let Some(p) = &targets.drill {
+        files.push((p.clone(), fab::drill::drill(design)?.into_bytes()));
+    }
+    if let Some(p) = &targets.centroid {
+        files.push((p.clone(), fab::centroid::centroid_csv(design).into_bytes()));
+    }
+    let names: Vec<&PathBuf> = files.iter().map(|(p, _)| p).collect();
+    for (i, p) in names.iter().enumerate() {
+        if names[..i].contains(p) {
+            bail!("{} is named twice", p.display());
+        }
+    }
+    Ok(files)
+}
+
+/// Makes the Gerber folder if needed, then writes each file atomically.
+pub fn write_files(targets: &Targets, files: &[(PathBuf, Vec<u8>)]) -> Result<()> {
+    if let Some(dir) = &targets.gerber {
+        std::fs::create_dir_all(dir)
+            .with_context(|| format!("cannot make the folder {}", dir.display()))?;
+    }
+    for (path, bytes) in files {
+        lehr::io::write_file(path, bytes)?;
+    }
+    Ok(())
+}
+
 pub fn export_cmd(a: ExportArgs) -> Result<ExitCode> {
     if a.svg.is_none()
         && a.png.is_none()
@@ -76,37 +153,14 @@ pub fn export_cmd(a: ExportArgs) -> Result<ExitCode> {
     opts.check()?;
 
     // Make every file's contents first: an error then writes nothing at all.
-    let mut files: Vec<(PathBuf, Vec<u8>)> = Vec::new();
-    if let Some(p) = &a.svg {
-        files.push((p.clone(), crate::app::svg::board_svg(&design).into_bytes()));
-    }
-    if let Some(p) = &a.png {
-        let bytes = crate::app::svg::board_png(&design)
-            .map_err(|e| anyhow!("cannot draw the PNG picture: {e}"))?;
-        files.push((p.clone(), bytes));
-    }
-    if let Some(dir) = &a.gerber {
-        let stem = file_stem(&a.board);
-        for layer in GerberLayer::ALL {
-            let text = gerber(&design, layer, &opts)?;
-            files.push((
-                dir.join(format!("{stem}-{}.gbr", layer.name())),
-                text.into_bytes(),
-            ));
-        }
-    }
-    if let Some(p) = &a.drill {
-        files.push((p.clone(), fab::drill::drill(&design)?.into_bytes()));
-    }
-    if let Some(p) = &a.centroid {
-        files.push((p.clone(), fab::centroid::centroid_csv(&design).into_bytes()));
-    }
-    let names: Vec<&PathBuf> = files.iter().map(|(p, _)| p).collect();
-    for (i, p) in names.iter().enumerate() {
-        if names[..i].contains(p) {
-            bail!("{} is named twice", p.display());
-        }
-    }
+    let targets = Targets {
+        svg: a.svg.clone(),
+        png: a.png.clone(),
+        gerber: a.gerber.clone(),
+        drill: a.drill.clone(),
+        centroid: a.centroid.clone(),
+    };
+    let files = build_files(&design, &file_stem(&a.board), &targets, &opts)?;
 
     let warnings = fab::warnings(&design);
     // Hazardous voltages or high currents: the usual caution, before the files go out.
@@ -119,13 +173,7 @@ pub fn export_cmd(a: ExportArgs) -> Result<ExitCode> {
             eprintln!("lehr: {c}");
         }
     }
-    if let Some(dir) = &a.gerber {
-        std::fs::create_dir_all(dir)
-            .with_context(|| format!("cannot make the folder {}", dir.display()))?;
-    }
-    for (path, bytes) in &files {
-        lehr::io::write_file(path, bytes)?;
-    }
+    write_files(&targets, &files)?;
     if a.json {
         println!(
             "{}",

@@ -50,6 +50,37 @@ pub fn pick_png(folder: Option<&Path>, name: &str) -> Option<PathBuf> {
     d.save_file()
 }
 
+/// Asks for a netlist to import (a connection list or an EDIF file).
+pub fn pick_netlist(folder: Option<&Path>) -> Option<PathBuf> {
+    let mut d = rfd::FileDialog::new()
+        .set_title("Import a netlist")
+        .add_filter("netlists", &["csv", "tsv", "txt", "edif", "edf", "edn"])
+        .add_filter("all files", &["*"]);
+    if let Some(f) = folder {
+        d = d.set_directory(f);
+    }
+    d.pick_file()
+}
+
+/// Asks for a folder to write the fabrication files into.
+pub fn pick_folder(folder: Option<&Path>) -> Option<PathBuf> {
+    let mut d = rfd::FileDialog::new().set_title("Export fabrication files into a folder");
+    if let Some(f) = folder {
+        d = d.set_directory(f);
+    }
+    d.pick_folder()
+}
+
+/// A file beside `netlist` with the same name up to its last extension and `suffix`
+/// instead (`net.csv` and `parts.csv` give `net.parts.csv`), if it exists: the window
+/// imports a connection list with its parts table, and an EDIF file with its footprint
+/// mapping, when they lie beside it named so (docs/import-formats.md).
+pub fn companion(netlist: &Path, suffix: &str) -> Option<PathBuf> {
+    let stem = netlist.file_stem()?.to_str()?;
+    let p = netlist.with_file_name(format!("{stem}.{suffix}"));
+    p.is_file().then_some(p)
+}
+
 /// A short name for a board file: `dir/dimmer.board.ron` gives `dimmer`.
 pub fn short_name(path: &Path) -> String {
     let file = path.file_name().and_then(|f| f.to_str()).unwrap_or("board");
@@ -77,6 +108,21 @@ mod tests {
             r.iter().filter(|p| *p == Path::new("b5.board.ron")).count(),
             1
         );
+    }
+
+    #[test]
+    fn companions_lie_beside_the_netlist() {
+        let dir = std::env::temp_dir().join(format!("lehr-companion-{}", std::process::id()));
+        std::fs::create_dir_all(&dir).unwrap();
+        let net = dir.join("net.csv");
+        std::fs::write(&net, "net,part,pin\n").unwrap();
+        assert_eq!(companion(&net, "parts.csv"), None);
+        std::fs::write(dir.join("net.parts.csv"), "reference,footprint\n").unwrap();
+        assert_eq!(
+            companion(&net, "parts.csv"),
+            Some(dir.join("net.parts.csv"))
+        );
+        std::fs::remove_dir_all(&dir).unwrap();
     }
 
     #[test]

@@ -119,6 +119,10 @@ pub enum Action {
     Save,
     SaveAs,
     ExportPng,
+    /// Import a netlist as a new, unsaved board (`None`: ask which).
+    Import(Option<PathBuf>),
+    /// Write the fabrication files and an SVG picture into a folder (`None`: ask which).
+    ExportFab(Option<PathBuf>),
     Fit,
     Quit,
     /// The user agreed to lose unsaved changes for this action.
@@ -615,6 +619,89 @@ impl LehrApp {
         std::fs::write(path, bytes).map_err(|e| anyhow!("cannot write {}: {e}", path.display()))
     }
 
+    /// Imports a netlist (with its parts table or footprint mapping when one lies beside
+    /// it, see [`files::companion`]) as a new board that is not saved yet.
+    fn import_netlist(&mut self, path: &Path) {
+        use lehr::io::import::{Format, ImportFiles, ImportOptions, import_file};
+        let format = std::fs::read(path).map(|b| Format::detect(path, &b));
+        let (parts, footprints) = match format {
+            Ok(Format::Connections) => (files::companion(path, "parts.csv"), None),
+            Ok(Format::Edif) => (None, files::companion(path, "footprints.txt")),
+            Err(_) => (None, None),
+        };
+        let files = ImportFiles {
+            netlist: path,
+            parts: parts.as_deref(),
+            footprints: footprints.as_deref(),
+        };
+        let result = import_file(&files, &ImportOptions::default())
+            .map_err(|e| e.to_string())
+            .and_then(|(_, imp)| {
+                lehr::model::resolve(imp.board)
+                    .map(|d| (d, imp.warnings))
+                    .map_err(|ps| {
+                        let list: Vec<String> = ps.iter().map(|p| p.to_string()).collect();
+                        format!("the imported board is not valid: {}", list.join("; "))
+                    })
+            });
+        match result {
+            Ok((design, warnings)) => {
+                let name = path
+                    .file_stem()
+                    .and_then(|s| s.to_str())
+                    .unwrap_or("imported")
+                    .to_string();
+                let (n_parts, n_nets) = (design.board.parts.len(), design.board.nets.len());
+                self.load(design, None, name);
+                // A new board: nothing on disk holds it yet.
+                self.doc.dirty = true;
+                self.settings.last_folder = path.parent().map(Path::to_path_buf);
+                let mut text = format!(
+                    "Imported {}: {n_parts} parts, {n_nets} nets. Press Run to place them, then save.",
+                    path.display()
+                );
+                if let Some(w) = warnings.first() {
+                    text.push_str(&format!(" {} warning(s), the first: {w}", warnings.len()));
+                }
+                self.message = Some(Message {
+                    error: !warnings.is_empty(),
+                    text,
+                });
+            }
+            Err(e) => {
+                self.message = Some(Message {
+                    error: true,
+                    text: format!("Could not import: {e}"),
+                })
+            }
+        }
+    }
+
+    /// Writes the Gerber files, the drill program, the centroid list and an SVG picture
+    /// of the board as it stands into `dir`; returns what to tell the user.
+    fn export_fab(&self, dir: &Path) -> Result<String> {
+        let design = lehr::model::resolve(self.current_board()).map_err(|ps| {
+            let list: Vec<String> = ps.iter().map(|p| p.to_string()).collect();
+            anyhow!("the board is not valid as placed: {}", list.join("; "))
+        })?;
+        let stem = crate::export_cmd::file_stem(Path::new(&format!("{}.board.ron", self.doc.name)));
+        let targets = crate::export_cmd::Targets::all_in(dir, &stem);
+        let files = crate::export_cmd::build_files(
+            &design,
+            &stem,
+            &targets,
+            &lehr::fab::FabOptions::default(),
+        )?;
+        crate::export_cmd::write_files(&targets, &files)?;
+        let mut text = format!("Wrote {} files into {}.", files.len(), dir.display());
+        for w in lehr::fab::warnings(&design) {
+            text.push(' ');
+            text.push_str(&w);
+            text.push('.');
+        }
+        Ok(text)
+    }
+
     fn folder(&self) -> Option<PathBuf> {
         self.settings.last_folder.clone()
     }
@@ -701,7 +788,7 @@ impl LehrApp {
                     self.set_part(e.part, e.after);
                 }
             }
-            Action::Open(_) | Action::OpenSample | Action::Quit
+            Action::Open(_) | Action::OpenSample | Action::Import(_) | Action::Quit
                 if self.doc.dirty && !self.discarding =>
             {
                 self.confirm = Some(a);
@@ -749,6 +836,24 @@ impl LehrApp {
                         },
                     });
                 }
+                None => self.no_dialog(),
+            },
+            Action::Import(Some(path)) => self.import_netlist(&path),
+            Action::Import(None) => match files::pick_netlist(self.folder().as_deref()) {
+                Some(p) => self.import_netlist(&p),
+                None => self.no_dialog(),
+            },
+            Action::ExportFab(Some(dir)) => {
+                self.message = Some(match self.export_fab(&dir) {
+                    Ok(text) => Message { error: false, text },
+                    Err(e) => Message {
+                        error: true,
+                        text: format!("Could not export: {e:#}"),
+                    },
+                });
+            }
+            Action::ExportFab(None) => match files::pick_folder(self.folder().as_deref()) {
+                Some(d) => self.apply(Action::ExportFab(Some(d)), ctx),
                 None => self.no_dialog(),
             },
             Action::Fit => self.canvas.fit(),
@@ -932,6 +1037,16 @@ impl LehrApp {
                 if ui.button("Open the sample board").clicked() {
                     self.actions.push(Action::OpenSample);
                 }
+                if ui
+                    .button("Import netlist (CSV, TSV, EDIF)...")
+                    .on_hover_text(
+                        "A connection list with NAME.parts.csv beside it, or an EDIF netlist \
+                         with NAME.footprints.txt beside it (docs/import-formats.md)",
+                    )
+                    .clicked()
+                {
+                    self.actions.push(Action::Import(None));
+                }
                 ui.separator();
                 if ui
                     .add(egui::Button::new("Save").shortcut_text("Ctrl+S"))
@@ -950,6 +1065,13 @@ impl LehrApp {
                     .clicked()
                 {
                     self.actions.push(Action::ExportPng);
+                }
+                if ui
+                    .button("Export fabrication files...")
+                    .on_hover_text("Gerber (copper, mask, outline), NC drill, centroid CSV and an SVG picture, into a folder")
+                    .clicked()
+                {
+                    self.actions.push(Action::ExportFab(None));
                 }
                 ui.separator();
                 if ui.button("Quit").clicked() {

@@ -467,3 +467,76 @@ fn the_rule_panel_lists_a_broken_board_and_shows_where() {
     assert_eq!(h.state().copper.selected, Some(k));
     assert!(h.state().canvas.marker.is_some());
 }
+
+/// File > Import netlist: the invented demo connection list (with its parts table beside
+/// it) becomes a new, unsaved board of its 15 parts and 9 nets; File > Export
+/// fabrication files then writes the Gerber set, the drill program, the centroid list and
+/// the picture into one folder. A broken netlist shows its file, line and column.
+#[test]
+fn a_netlist_imports_and_the_board_exports_fabrication_files() {
+    let netlists = Path::new(env!("CARGO_MANIFEST_DIR")).join("sample-boards/netlists");
+    let mut h = harness(grid_app());
+    h.state_mut()
+        .actions
+        .push(Action::Import(Some(netlists.join("vent-controller.csv"))));
+    h.step();
+    let app = h.state();
+    assert_eq!(
+        app.doc.design.board.parts.len(),
+        15,
+        "{:?}",
+        app.message.as_ref().map(|m| &m.text)
+    );
+    assert_eq!(app.doc.design.board.nets.len(), 9);
+    assert!(app.is_dirty(), "an imported board is not saved yet");
+    assert!(app.doc.path.is_none());
+    wait_until(&mut h, "the imported board's first snapshot", |a| {
+        a.snapshot().is_some()
+    });
+    let dir = tempfile::tempdir().unwrap();
+    h.state_mut()
+        .actions
+        .push(Action::ExportFab(Some(dir.path().to_path_buf())));
+    h.step();
+    let m = h.state().message.as_ref().expect("the export reports");
+    assert!(!m.error, "{}", m.text);
+    let mut names: Vec<String> = std::fs::read_dir(dir.path())
+        .unwrap()
+        .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+        .collect();
+    names.sort();
+    assert_eq!(
+        names,
+        [
+            "vent-controller-centroid.csv",
+            "vent-controller-copper-bottom.gbr",
+            "vent-controller-copper-top.gbr",
+            "vent-controller-mask-bottom.gbr",
+            "vent-controller-mask-top.gbr",
+            "vent-controller-outline.gbr",
+            "vent-controller.drl",
+            "vent-controller.svg",
+        ]
+    );
+
+    // A connection row without its pin: refused with where.
+    let bad = dir.path().join("bad.csv");
+    std::fs::write(&bad, "net,part,pin\nGND,R1\n").unwrap();
+    h.state_mut().doc.dirty = false;
+    h.state_mut()
+        .actions
+        .push(Action::Import(Some(bad.clone())));
+    h.step();
+    let m = h.state().message.as_ref().unwrap();
+    assert!(m.error);
+    assert!(
+        m.text.contains(&format!("{}:2:", bad.display())),
+        "{}",
+        m.text
+    );
+    assert_eq!(
+        h.state().doc.design.board.parts.len(),
+        15,
+        "the board is kept"
+    );
+}
