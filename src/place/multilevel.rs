@@ -28,7 +28,7 @@ use std::time::Instant;
 use super::anneal::{AnnealOptions, Annealer, PlaceError, StageReport};
 use super::rng::Rng;
 use super::{Placed, finish};
-use crate::model::board::{Board, Copper, Net, Part, Side, rect_to_board};
+use crate::model::board::{Board, Copper, Net, Part, Side, rect_to_board, to_board};
 use crate::model::footprint::{FootprintSpec, PadShape, PadSpec};
 use crate::model::{Design, Point, Rect, resolve};
 
@@ -69,21 +69,14 @@ pub fn place(
     let mut axis_x = true;
     loop {
         let finer = levels.last().map_or(design, |l| &l.design);
-        let movable = finer.board.parts.iter().filter(|p| !p.locked).count();
+        let movable = movable_count(finer);
         if movable <= COARSEST || levels.len() >= MAX_LEVELS {
             break;
         }
         let Some(level) = coarsen(finer, &mut rng, axis_x, opts.scatter) else {
             break;
         };
-        let coarse_movable = level
-            .design
-            .board
-            .parts
-            .iter()
-            .filter(|p| !p.locked)
-            .count();
-        if coarse_movable as f64 > MIN_SHRINK * movable as f64 {
+        if movable_count(&level.design) as f64 > MIN_SHRINK * movable as f64 {
             break;
         }
         levels.push(level);
@@ -103,7 +96,7 @@ pub fn place(
     // Share a move cap among the levels by their stage sizes (N^(4/3)).
     let sizes: Vec<f64> = std::iter::once(design)
         .chain(levels.iter().map(|l| &l.design))
-        .map(|d| (d.board.parts.iter().filter(|p| !p.locked).count().max(1) as f64).powf(4.0 / 3.0))
+        .map(|d| (movable_count(d).max(1) as f64).powf(4.0 / 3.0))
         .collect();
     let total: f64 = sizes.iter().sum();
     let cap_for = |k: usize| {
@@ -195,6 +188,10 @@ pub fn place(
 /// Fraction of uphill moves accepted when a finer level starts: warm enough to repair
 /// the order within a cluster's reach, too cool to undo the coarser level's order.
 pub const REFINE_ACCEPTANCE: f64 = 0.1;
+
+fn movable_count(d: &Design) -> usize {
+    d.board.parts.iter().filter(|p| !p.locked).count()
+}
 
 fn snap(p: Point, grid: f64) -> Point {
     Point::new((p.x / grid).round() * grid, (p.y / grid).round() * grid)
@@ -404,6 +401,14 @@ fn coarsen(d: &Design, rng: &mut Rng, axis_x: bool, scatter: bool) -> Option<Lev
         1.0
     };
 
+    // Each part's connected pins as (net, pad), in net order.
+    let mut pins_of: Vec<Vec<(u32, u32)>> = vec![Vec::new(); n];
+    for (ni, pins) in d.net_pins.iter().enumerate() {
+        for pin in pins {
+            pins_of[pin.part.index()].push((ni as u32, pin.pad));
+        }
+    }
+
     // Pin offsets of each group per net: the mean of its members' pins on that net.
     let mut pin_sum: Vec<Vec<(u32, Point, u32)>> = vec![Vec::new(); groups.len()];
     let mut new_parts: Vec<Part> = Vec::with_capacity(groups.len());
@@ -418,24 +423,21 @@ fn coarsen(d: &Design, rng: &mut Rng, axis_x: bool, scatter: bool) -> Option<Lev
         let (offs, bbox) = &shapes[gi];
         let court = Rect::centered(bbox.center(), bbox.width() * shrink, bbox.height() * shrink);
         for (&m, off) in g.iter().zip(offs) {
-            for (ni, pins) in d.net_pins.iter().enumerate() {
-                for pin in pins.iter().filter(|p| p.part.index() == m) {
-                    let pad = &d.footprints[m].pads[pin.pad as usize];
-                    let at = rect_to_board(
-                        &Rect::centered(pad.at, 0.0, 0.0),
-                        Point::new(0.0, 0.0),
-                        parts[m].quarter(),
-                        parts[m].side,
-                    )
-                    .center()
-                    .add(*off);
-                    match pin_sum[gi].iter_mut().find(|e| e.0 == ni as u32) {
-                        Some(e) => {
-                            e.1 = e.1.add(at);
-                            e.2 += 1;
-                        }
-                        None => pin_sum[gi].push((ni as u32, at, 1)),
+            for &(ni, pad) in &pins_of[m] {
+                let pad = &d.footprints[m].pads[pad as usize];
+                let at = to_board(
+                    pad.at,
+                    Point::new(0.0, 0.0),
+                    parts[m].quarter(),
+                    parts[m].side,
+                )
+                .add(*off);
+                match pin_sum[gi].iter_mut().find(|e| e.0 == ni) {
+                    Some(e) => {
+                        e.1 = e.1.add(at);
+                        e.2 += 1;
                     }
+                    None => pin_sum[gi].push((ni, at, 1)),
                 }
             }
         }
