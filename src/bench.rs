@@ -251,9 +251,6 @@ fn route_samples(args: &BenchArgs, out: &mut serde_json::Map<String, Value>) -> 
 fn problems(ps: Vec<lehr::model::Problem>) -> anyhow::Error {
     anyhow::anyhow!(
         "generated board failed its checks: {}",
-        ps.iter()
-            .map(|p| p.to_string())
-            .collect::<Vec<_>>()
-            .join("; ")
+        lehr::model::problems_line(&ps)
     )
 }

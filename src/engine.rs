@@ -542,8 +542,10 @@ impl Worker {
         let mut board = place::board_at(&self.design, l.positions(), l.quarters());
         board.copper = Copper::default();
         crate::model::resolve(board).map_err(|problems| {
-            let list: Vec<String> = problems.iter().map(|p| p.to_string()).collect();
-            format!("the board is not valid as placed: {}", list.join("; "))
+            format!(
+                "the board is not valid as placed: {}",
+                crate::model::problems_line(&problems)
+            )
         })
     }
 

@@ -640,8 +640,10 @@ impl LehrApp {
                 lehr::model::resolve(imp.board)
                     .map(|d| (d, imp.warnings))
                     .map_err(|ps| {
-                        let list: Vec<String> = ps.iter().map(|p| p.to_string()).collect();
-                        format!("the imported board is not valid: {}", list.join("; "))
+                        format!(
+                            "the imported board is not valid: {}",
+                            lehr::model::problems_line(&ps)
+                        )
                     })
             });
         match result {
@@ -681,8 +683,10 @@ impl LehrApp {
     /// of the board as it stands into `dir`; returns what to tell the user.
     fn export_fab(&self, dir: &Path) -> Result<String> {
         let design = lehr::model::resolve(self.current_board()).map_err(|ps| {
-            let list: Vec<String> = ps.iter().map(|p| p.to_string()).collect();
-            anyhow!("the board is not valid as placed: {}", list.join("; "))
+            anyhow!(
+                "the board is not valid as placed: {}",
+                lehr::model::problems_line(&ps)
+            )
         })?;
         let stem = crate::export_cmd::file_stem(Path::new(&format!("{}.board.ron", self.doc.name)));
         let targets = crate::export_cmd::Targets::all_in(dir, &stem);

@@ -146,6 +146,15 @@ impl Checker {
     }
 }
 
+/// The problems of a board that failed [`resolve`], as one line: `a; b; c`.
+pub fn problems_line(problems: &[Problem]) -> String {
+    problems
+        .iter()
+        .map(|p| p.to_string())
+        .collect::<Vec<_>>()
+        .join("; ")
+}
+
 /// Checks the board and builds the resolved design, or returns every problem found.
 pub fn resolve(board: Board) -> Result<Design, Vec<Problem>> {
     let mut c = Checker {

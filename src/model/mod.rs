@@ -10,6 +10,6 @@ mod packages;
 pub use board::{
     Board, Design, Layer, NetId, PartId, PinRef, Shape, Side, rect_to_board, to_board,
 };
-pub use check::{Problem, resolve};
+pub use check::{Problem, problems_line, resolve};
 pub use footprint::{Footprint, FootprintSpec, Pad, PadKind, PadShape};
 pub use geom::{Point, Quarter, Rect};
