@@ -167,6 +167,28 @@ impl SpatialHash {
         sum
     }
 
+    /// Index of the bin holding point `p` (clamped to the grid).
+    #[inline]
+    pub fn bin_of(&self, p: crate::model::Point) -> u32 {
+        let x = self.cell(p.x, self.x0, self.nx);
+        let y = self.cell(p.y, self.y0, self.ny);
+        (y * self.nx + x) as u32
+    }
+
+    /// Cache hint: the header of bin `b` (see [`super::layout::Layout::prefetch_pins`]).
+    #[inline]
+    pub fn prefetch_header(&self, b: u32) {
+        super::layout::prefetch(self.bins.as_ptr().wrapping_add(b as usize));
+    }
+
+    /// Cache hint: the first entries of bin `b` (reads its header).
+    #[inline]
+    pub fn prefetch_entries(&self, b: u32) {
+        if let Some(bin) = self.bins.get(b as usize) {
+            super::layout::prefetch(bin.as_ptr());
+        }
+    }
+
     /// Calls `f` with every entry in the bins `r` covers (an entry may repeat when its
     /// part spans several of those bins; callers de-duplicate).
     pub fn for_each_near(&self, r: &Rect, mut f: impl FnMut(&Entry)) {

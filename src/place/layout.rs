@@ -28,6 +28,11 @@ use crate::model::{Point, Quarter, Rect, Side};
 /// in constant time; smaller nets are simply re-scanned (cheaper at that size).
 const LARGE_NET: usize = 12;
 
+/// Tables larger than this (bytes) make the annealer issue cache hints
+/// ([`Layout::hints`]): half the 1 MiB second-level cache of the reference machine, and
+/// of most current desktop cores.
+const HINT_BYTES: usize = 512 * 1024;
+
 /// The energy terms, unweighted (lengths in mm, areas in mm^2).
 #[derive(Clone, Copy, Debug, Default, PartialEq, Serialize, Deserialize)]
 pub struct Terms {
@@ -276,20 +281,98 @@ pub fn fanout_margins(design: &Design) -> Vec<f64> {
         .collect()
 }
 
+/// Everything a move reads about one part, in one 64-byte cache line. On a large board
+/// a move's first touch of a randomly chosen part misses the cache; with the position,
+/// shape, pins and flags side by side that costs one line instead of one per table.
+#[derive(Clone, Copy, Debug, Default)]
+#[repr(C, align(64))]
+struct PartCell {
+    pos: Point,
+    /// Courtyard relative to the part's origin at its current turn, side applied. Kept
+    /// turned (like the pins' offsets) so that moves that keep the turn, nine in ten,
+    /// rotate nothing: the turn of a random part is a branch the processor cannot
+    /// predict.
+    court: Rect,
+    /// The grown courtyard is the courtyard inflated by this (half the clearance plus
+    /// any fan-out band).
+    margin: f64,
+    /// The part's connected pins are `pins[pin_start..pin_start + pin_count]`.
+    pin_start: u32,
+    pin_count: u16,
+    quarter: Quarter,
+    /// Layer mask in bits 0-1 (1 = top, 2 = bottom, 3 = both: through-hole parts), then
+    /// [`ROTATABLE`] and [`LOCKED`].
+    flags: u8,
+}
+
+const LAYERS: u8 = 3;
+const ROTATABLE: u8 = 4;
+const LOCKED: u8 = 8;
+
+impl PartCell {
+    #[inline]
+    fn mask(&self) -> u8 {
+        self.flags & LAYERS
+    }
+
+    /// Board rectangle of the courtyard at `at` turned by `q`.
+    #[inline]
+    fn court_at(&self, at: Point, q: Quarter) -> Rect {
+        if q == self.quarter {
+            self.court.translate(at)
+        } else {
+            turn(self.quarter, q).apply_rect(&self.court).translate(at)
+        }
+    }
+
+    /// Board rectangle of the grown courtyard at `at` turned by `q`.
+    #[inline]
+    fn grown_at(&self, at: Point, q: Quarter) -> Rect {
+        let g = self.court.inflate(self.margin);
+        if q == self.quarter {
+            g.translate(at)
+        } else {
+            turn(self.quarter, q).apply_rect(&g).translate(at)
+        }
+    }
+
+    #[inline]
+    fn grown(&self) -> Rect {
+        self.court.inflate(self.margin).translate(self.pos)
+    }
+
+    #[inline]
+    fn court_now(&self) -> Rect {
+        self.court.translate(self.pos)
+    }
+
+    #[inline]
+    fn pins(&self) -> std::ops::Range<usize> {
+        self.pin_start as usize..self.pin_start as usize + self.pin_count as usize
+    }
+}
+
+/// The rotation that takes an offset at turn `from` to turn `to` (exact: quarter turns
+/// only swap and negate coordinates).
+#[inline]
+fn turn(from: Quarter, to: Quarter) -> Quarter {
+    Quarter::from_index(to.index() + 4 - from.index())
+}
+
+/// A connected pin: its offset from the part's origin (side applied, at the part's
+/// current turn) and its net, read together when the part moves.
+#[derive(Clone, Copy, Debug, Default)]
+struct PinCell {
+    off: Point,
+    net: u32,
+}
+
 /// Placement state with incrementally maintained energy terms. See the module docs.
 pub struct Layout {
     // Static description, indexed by part, pin (connected pins only) or net.
     grid: f64,
-    locked: Vec<bool>,
-    rotatable: Vec<bool>,
-    /// 1 = top, 2 = bottom, 3 = both (through-hole parts).
-    mask: Vec<u8>,
-    court_off: Vec<[Rect; 4]>,
-    grown_off: Vec<[Rect; 4]>,
-    part_pin_start: Vec<u32>,
-    pin_net: Vec<u32>,
     pin_part: Vec<u32>,
-    pin_off: Vec<[Point; 4]>,
+    pins: Vec<PinCell>,
     net_meta: Vec<NetMeta>,
     net_pin_list: Vec<u32>,
     outline: Shape,
@@ -298,15 +381,19 @@ pub struct Layout {
     keepouts: Vec<KeepoutArea>,
 
     // Dynamic state.
+    /// Position, turn and everything static a move needs, per part (the hot table).
+    parts: Vec<PartCell>,
+    /// Copies of the parts' positions and turns, for callers that want slices.
     pos: Vec<Point>,
     quarter: Vec<Quarter>,
-    court: Vec<Rect>,
-    grown: Vec<Rect>,
     /// Board position of each connected pin, x and y side by side (one cache line).
     pin_xy: Vec<[f64; 2]>,
     bbox: Vec<NetBox>,
     terms: Terms,
     hash: SpatialHash,
+
+    /// Whether the annealer should issue cache hints ([`Self::hints`]).
+    hints: bool,
 
     // Scratch, reused across moves so a move allocates nothing.
     net_gen: u32,
@@ -323,6 +410,8 @@ pub struct Layout {
 pub enum LayoutError {
     #[error("part {0} has no position; give it one or let the placer choose (unlocked)")]
     Unplaced(String),
+    #[error("part {0} has {1} connected pins; the placer takes at most 65,535 per part")]
+    TooManyPins(String, usize),
 }
 
 impl Layout {
@@ -333,15 +422,8 @@ impl Layout {
         let half_clear = board.rules.clearance / 2.0;
         let mut layout = Layout {
             grid: board.rules.placement_grid,
-            locked: Vec::with_capacity(n),
-            rotatable: Vec::with_capacity(n),
-            mask: Vec::with_capacity(n),
-            court_off: Vec::with_capacity(n),
-            grown_off: Vec::with_capacity(n),
-            part_pin_start: Vec::with_capacity(n + 1),
-            pin_net: Vec::new(),
             pin_part: Vec::new(),
-            pin_off: Vec::new(),
+            pins: Vec::new(),
             net_meta: Vec::new(),
             net_pin_list: Vec::new(),
             outline: board.outline.clone(),
@@ -358,10 +440,9 @@ impl Layout {
                     mask: layers_mask(k.layers),
                 })
                 .collect(),
+            parts: Vec::with_capacity(n),
             pos: Vec::with_capacity(n),
             quarter: Vec::with_capacity(n),
-            court: Vec::with_capacity(n),
-            grown: Vec::with_capacity(n),
             pin_xy: Vec::new(),
             bbox: board
                 .nets
@@ -373,6 +454,7 @@ impl Layout {
                 .collect(),
             terms: Terms::default(),
             hash: SpatialHash::new(Rect::default(), 1.0, 1),
+            hints: false,
             net_gen: 0,
             undo_pins: Vec::new(),
             undo_nets: Vec::new(),
@@ -391,7 +473,7 @@ impl Layout {
                 .at
                 .ok_or_else(|| LayoutError::Unplaced(part.reference.clone()))?;
             let side = part.side;
-            let mask = if fp.has_through_holes() {
+            let mut flags = if fp.has_through_holes() {
                 3
             } else {
                 match side {
@@ -402,28 +484,41 @@ impl Layout {
             let origin = Point::default();
             let court: [Rect; 4] =
                 Quarter::ALL.map(|q| rect_to_board(&fp.courtyard, origin, q, side));
-            let grown = court.map(|r| r.inflate(half_clear + fanout[i]));
-            layout.part_pin_start.push(layout.pin_net.len() as u32);
+            let pin_start = layout.pins.len();
             let mut rotatable = court.iter().any(|r| *r != court[0]);
             for (pad, net) in fp.pads.iter().zip(&pad_net[i]) {
                 if let Some(net) = net {
                     let offs = Quarter::ALL.map(|q| to_board(pad.at, origin, q, side));
                     rotatable |= offs.iter().any(|o| *o != offs[0]);
-                    part_pins_of_net[net.index()].push(layout.pin_net.len() as u32);
-                    layout.pin_net.push(net.0);
+                    part_pins_of_net[net.index()].push(layout.pins.len() as u32);
+                    layout.pins.push(PinCell {
+                        off: offs[part.quarter().index()],
+                        net: net.0,
+                    });
                     layout.pin_part.push(i as u32);
-                    layout.pin_off.push(offs);
                 }
             }
-            layout.locked.push(part.locked);
-            layout.rotatable.push(rotatable);
-            layout.mask.push(mask);
-            layout.court_off.push(court);
-            layout.grown_off.push(grown);
+            let pin_count = layout.pins.len() - pin_start;
+            let pin_count = u16::try_from(pin_count)
+                .map_err(|_| LayoutError::TooManyPins(part.reference.clone(), pin_count))?;
+            if rotatable {
+                flags |= ROTATABLE;
+            }
+            if part.locked {
+                flags |= LOCKED;
+            }
+            layout.parts.push(PartCell {
+                pos: at,
+                court: court[part.quarter().index()],
+                margin: half_clear + fanout[i],
+                pin_start: pin_start as u32,
+                pin_count,
+                quarter: part.quarter(),
+                flags,
+            });
             layout.pos.push(at);
             layout.quarter.push(part.quarter());
         }
-        layout.part_pin_start.push(layout.pin_net.len() as u32);
         for pins in &part_pins_of_net {
             layout.net_meta.push(NetMeta {
                 start: layout.net_pin_list.len() as u32,
@@ -437,14 +532,20 @@ impl Layout {
         // grown courtyard side, so a typical part touches one to four bins.
         let mut area = layout.outline_bounds;
         let mut side_sum = 0.0;
-        for i in 0..n {
-            let q = layout.quarter[i].index();
-            let r = layout.grown_off[i][q].translate(layout.pos[i]);
+        for c in &layout.parts {
+            let r = c.grown();
             area = area.union(&r);
             side_sum += (r.width() + r.height()) / 2.0;
         }
         let bin = 2.0 * side_sum / n.max(1) as f64;
         layout.hash = SpatialHash::new(area.inflate(1.0), bin.max(0.1), (4 * n).max(64));
+        // What a move may touch: the part rows, pins, nets and bins with their entries
+        // (about two per part).
+        let bytes = n * (size_of::<PartCell>() + 2 * 48)
+            + layout.pins.len() * (size_of::<PinCell>() + 16)
+            + board.nets.len() * (size_of::<NetBox>() + size_of::<NetMeta>())
+            + 4 * n * 24;
+        layout.hints = bytes > HINT_BYTES;
 
         layout.rebuild();
         Ok(layout)
@@ -452,21 +553,17 @@ impl Layout {
 
     /// Recomputes every cache and running total from the part positions.
     pub fn rebuild(&mut self) {
-        let n = self.pos.len();
-        self.court.clear();
-        self.grown.clear();
+        let n = self.parts.len();
         for i in 0..n {
-            let q = self.quarter[i].index();
-            self.court.push(self.court_off[i][q].translate(self.pos[i]));
-            self.grown.push(self.grown_off[i][q].translate(self.pos[i]));
+            self.turn_part(i, self.quarter[i]);
+            self.parts[i].pos = self.pos[i];
         }
-        let np = self.pin_net.len();
+        let np = self.pins.len();
         self.pin_xy.resize(np, [0.0; 2]);
-        for i in 0..n {
-            let q = self.quarter[i].index();
-            for p in self.pins_of(i) {
-                let o = self.pin_off[p][q];
-                self.pin_xy[p] = [self.pos[i].x + o.x, self.pos[i].y + o.y];
+        for c in &self.parts {
+            for p in c.pins() {
+                let o = self.pins[p].off;
+                self.pin_xy[p] = [c.pos.x + o.x, c.pos.y + o.y];
             }
         }
         for k in 0..self.bbox.len() {
@@ -475,17 +572,32 @@ impl Layout {
         // Rebuild the hash from scratch.
         let area = self.hash_area();
         self.hash = SpatialHash::new(area.0, area.1, (4 * n).max(64));
-        for i in 0..n {
-            self.hash.insert(i as u32, self.mask[i], &self.grown[i]);
+        for (i, c) in self.parts.iter().enumerate() {
+            self.hash.insert(i as u32, c.mask(), &c.grown());
         }
         self.terms = self.full_terms();
     }
 
+    /// Turns part `i`'s courtyard and pin offsets to `q` (the position is the caller's).
+    fn turn_part(&mut self, i: usize, q: Quarter) {
+        let c = &mut self.parts[i];
+        if c.quarter == q {
+            return;
+        }
+        let t = turn(c.quarter, q);
+        c.court = t.apply_rect(&c.court);
+        c.quarter = q;
+        for p in c.pins() {
+            self.pins[p].off = t.apply(self.pins[p].off);
+        }
+    }
+
     fn hash_area(&self) -> (Rect, f64) {
-        let n = self.pos.len();
+        let n = self.parts.len();
         let mut area = self.outline_bounds;
         let mut side_sum = 0.0;
-        for r in &self.grown {
+        for c in &self.parts {
+            let r = &c.grown();
             area = area.union(r);
             side_sum += (r.width() + r.height()) / 2.0;
         }
@@ -497,7 +609,7 @@ impl Layout {
 
     #[inline]
     fn pins_of(&self, part: usize) -> std::ops::Range<usize> {
-        self.part_pin_start[part] as usize..self.part_pin_start[part + 1] as usize
+        self.parts[part].pins()
     }
 
     #[inline]
@@ -651,9 +763,10 @@ impl Layout {
             }
             if moves.len() == 2 {
                 let (a, b) = (moves[0].part as usize, moves[1].part as usize);
-                if self.mask[a] & self.mask[b] != 0 {
+                let (ca, cb) = (&self.parts[a], &self.parts[b]);
+                if ca.mask() & cb.mask() != 0 {
                     d.overlap += new_grown[0].overlap_area(&new_grown[1])
-                        - self.grown[a].overlap_area(&self.grown[b]);
+                        - ca.grown().overlap_area(&cb.grown());
                 }
             }
         } else {
@@ -668,14 +781,14 @@ impl Layout {
             }
             self.moving = moving;
             for (k, a) in moves.iter().enumerate() {
-                let (ia, qa) = (a.part as usize, a.quarter.index());
-                let new_a = self.grown_off[ia][qa].translate(a.at);
+                let ca = &self.parts[a.part as usize];
+                let new_a = ca.grown_at(a.at, a.quarter);
                 for b in &moves[k + 1..] {
-                    let ib = b.part as usize;
-                    if self.mask[ia] & self.mask[ib] != 0 {
-                        let new_b = self.grown_off[ib][b.quarter.index()].translate(b.at);
-                        d.overlap += new_a.overlap_area(&new_b)
-                            - self.grown[ia].overlap_area(&self.grown[ib]);
+                    let cb = &self.parts[b.part as usize];
+                    if ca.mask() & cb.mask() != 0 {
+                        let new_b = cb.grown_at(b.at, b.quarter);
+                        d.overlap +=
+                            new_a.overlap_area(&new_b) - ca.grown().overlap_area(&cb.grown());
                     }
                 }
             }
@@ -692,9 +805,11 @@ impl Layout {
         }
         for m in moves {
             let i = m.part as usize;
-            let q = m.quarter.index();
-            for p in self.pins_of(i) {
-                let o = self.pin_off[p][q];
+            let c = &self.parts[i];
+            let t = (m.quarter != c.quarter).then(|| turn(c.quarter, m.quarter));
+            for p in c.pins() {
+                let pin = self.pins[p];
+                let o = t.map_or(pin.off, |t| t.apply(pin.off));
                 let (nx, ny) = (m.at.x + o.x, m.at.y + o.y);
                 let [ox, oy] = self.pin_xy[p];
                 if nx == ox && ny == oy {
@@ -702,7 +817,7 @@ impl Layout {
                 }
                 self.undo_pins.push((p as u32, ox, oy));
                 self.pin_xy[p] = [nx, ny];
-                let net = self.pin_net[p] as usize;
+                let net = pin.net as usize;
                 let meta = &mut self.net_meta[net];
                 if meta.stamp != self.net_gen {
                     meta.stamp = self.net_gen;
@@ -751,13 +866,12 @@ impl Layout {
         d: &mut Terms,
         overlap: impl Fn(&SpatialHash, &Rect, u8) -> f64,
     ) -> Rect {
-        let i = m.part as usize;
-        let q = m.quarter.index();
-        let mask = self.mask[i];
-        let old_g = self.grown[i];
-        let new_g = self.grown_off[i][q].translate(m.at);
-        let old_c = self.court[i];
-        let new_c = self.court_off[i][q].translate(m.at);
+        let c = &self.parts[m.part as usize];
+        let mask = c.mask();
+        let old_g = c.grown();
+        let new_g = c.grown_at(m.at, m.quarter);
+        let old_c = c.court_now();
+        let new_c = c.court_at(m.at, m.quarter);
         d.overlap += overlap(&self.hash, &new_g, mask) - overlap(&self.hash, &old_g, mask);
         d.outside += self.outside_of(&new_c) - self.outside_of(&old_c);
         if !self.keepouts.is_empty() {
@@ -771,12 +885,11 @@ impl Layout {
         for k in 0..self.pending.len() {
             let m = self.pending[k];
             let i = m.part as usize;
-            let q = m.quarter.index();
-            let new_g = self.grown_off[i][q].translate(m.at);
-            self.hash
-                .relocate(m.part, self.mask[i], &self.grown[i], &new_g);
-            self.grown[i] = new_g;
-            self.court[i] = self.court_off[i][q].translate(m.at);
+            let c = &self.parts[i];
+            let new_g = c.grown_at(m.at, m.quarter);
+            self.hash.relocate(m.part, c.mask(), &c.grown(), &new_g);
+            self.turn_part(i, m.quarter);
+            self.parts[i].pos = m.at;
             self.pos[i] = m.at;
             self.quarter[i] = m.quarter;
         }
@@ -816,15 +929,10 @@ impl Layout {
     /// reference the incremental totals are tested against, and the baseline the
     /// benchmark compares with. Overlap pairs are found by a sort-and-sweep on x.
     pub fn full_terms(&self) -> Terms {
-        let n = self.pos.len();
+        let n = self.parts.len();
         let mut t = Terms::default();
-        let mut court = Vec::with_capacity(n);
-        let mut grown = Vec::with_capacity(n);
-        for i in 0..n {
-            let q = self.quarter[i].index();
-            court.push(self.court_off[i][q].translate(self.pos[i]));
-            grown.push(self.grown_off[i][q].translate(self.pos[i]));
-        }
+        let court: Vec<Rect> = self.parts.iter().map(PartCell::court_now).collect();
+        let grown: Vec<Rect> = self.parts.iter().map(PartCell::grown).collect();
         // Wirelength from scratch: pin positions, then each net's box.
         let nn = self.bbox.len();
         let mut boxes = vec![
@@ -836,12 +944,11 @@ impl Layout {
             );
             nn
         ];
-        for i in 0..n {
-            let q = self.quarter[i].index();
-            for p in self.pins_of(i) {
-                let o = self.pin_off[p][q];
-                let (x, y) = (self.pos[i].x + o.x, self.pos[i].y + o.y);
-                let b = &mut boxes[self.pin_net[p] as usize];
+        for c in &self.parts {
+            for p in c.pins() {
+                let o = self.pins[p].off;
+                let (x, y) = (c.pos.x + o.x, c.pos.y + o.y);
+                let b = &mut boxes[self.pins[p].net as usize];
                 b.0 = b.0.min(x);
                 b.1 = b.1.max(x);
                 b.2 = b.2.min(y);
@@ -861,14 +968,14 @@ impl Layout {
                 if grown[b].min.x >= grown[a].max.x {
                     break;
                 }
-                if self.mask[a] & self.mask[b] != 0 {
+                if self.parts[a].mask() & self.parts[b].mask() != 0 {
                     t.overlap += grown[a].overlap_area(&grown[b]);
                 }
             }
         }
-        for (c, &mask) in court.iter().zip(&self.mask) {
+        for (c, cell) in court.iter().zip(&self.parts) {
             t.outside += self.outside_of(c);
-            t.keepout += self.keepout_of(c, mask);
+            t.keepout += self.keepout_of(c, cell.mask());
         }
         t
     }
@@ -879,21 +986,18 @@ impl Layout {
         let saved: Vec<(u32, Point, Quarter)> = moves
             .iter()
             .map(|m| {
-                (
-                    m.part,
-                    self.pos[m.part as usize],
-                    self.quarter[m.part as usize],
-                )
+                let c = &self.parts[m.part as usize];
+                (m.part, c.pos, c.quarter)
             })
             .collect();
         for m in moves {
-            self.pos[m.part as usize] = m.at;
-            self.quarter[m.part as usize] = m.quarter;
+            self.turn_part(m.part as usize, m.quarter);
+            self.parts[m.part as usize].pos = m.at;
         }
         let t = self.full_terms();
         for (p, at, q) in saved.into_iter().rev() {
-            self.pos[p as usize] = at;
-            self.quarter[p as usize] = q;
+            self.turn_part(p as usize, q);
+            self.parts[p as usize].pos = at;
         }
         t
     }
@@ -908,21 +1012,82 @@ impl Layout {
         self.bbox.iter().map(|b| b.len).sum()
     }
 
+    // Cache hints for the moves ahead. The annealer draws each move's part three moves
+    // early and calls these on consecutive moves: the part's row; then its pins and the
+    // bin headers under it and under its target (reading the row fetched a move before);
+    // then its nets' boxes and those bins' entries (reading the pins and headers fetched
+    // a move before). Hints only: nothing is computed or changed, and results do not
+    // depend on them.
+
+    /// Whether cache hints pay: the tables a move reads are larger than a core's
+    /// second-level cache is likely to hold. Below that the hints cost more instructions
+    /// than the misses they save (measured: docs/performance.md).
+    #[inline]
+    pub fn hints(&self) -> bool {
+        self.hints
+    }
+
+    /// Turns the cache hints on or off whatever the board's size (tests: the hints must
+    /// not change any result).
+    #[doc(hidden)]
+    pub fn set_hints(&mut self, on: bool) {
+        self.hints = on;
+    }
+
+    /// Stage 0: the part's row.
+    #[inline]
+    pub fn prefetch_row(&self, part: u32) {
+        prefetch(self.parts.as_ptr().wrapping_add(part as usize));
+    }
+
+    /// Stage 1: the part's pins and the header of the bin under it; returns that bin.
+    #[inline]
+    pub fn prefetch_pins(&self, part: u32) -> u32 {
+        let c = &self.parts[part as usize];
+        let s = c.pin_start as usize;
+        prefetch(self.pins.as_ptr().wrapping_add(s));
+        prefetch(self.pin_xy.as_ptr().wrapping_add(s));
+        self.prefetch_bin_at(c.pos)
+    }
+
+    /// Stage 1: the header of the bin under point `p` (a move's target); returns it.
+    #[inline]
+    pub fn prefetch_bin_at(&self, p: Point) -> u32 {
+        let b = self.hash.bin_of(p);
+        self.hash.prefetch_header(b);
+        b
+    }
+
+    /// Stage 2: the part's nets and the entries of two bins whose headers stage 1
+    /// fetched.
+    #[inline]
+    pub fn prefetch_nets(&self, part: u32, bins: [u32; 2]) {
+        let c = &self.parts[part as usize];
+        for p in &self.pins[c.pins()] {
+            prefetch(self.net_meta.as_ptr().wrapping_add(p.net as usize));
+            prefetch(self.bbox.as_ptr().wrapping_add(p.net as usize));
+        }
+        self.hash.prefetch_entries(bins[0]);
+        self.hash.prefetch_entries(bins[1]);
+    }
+
     /// Number of connected pins of a part.
     pub fn pin_count(&self, part: u32) -> usize {
         self.pins_of(part as usize).len()
     }
 
     pub fn part_count(&self) -> usize {
-        self.pos.len()
+        self.parts.len()
     }
 
+    #[inline]
     pub fn position(&self, part: u32) -> Point {
-        self.pos[part as usize]
+        self.parts[part as usize].pos
     }
 
+    #[inline]
     pub fn quarter(&self, part: u32) -> Quarter {
-        self.quarter[part as usize]
+        self.parts[part as usize].quarter
     }
 
     pub fn positions(&self) -> &[Point] {
@@ -933,17 +1098,24 @@ impl Layout {
         &self.quarter
     }
 
+    #[inline]
     pub fn is_locked(&self, part: u32) -> bool {
-        self.locked[part as usize]
+        self.parts[part as usize].flags & LOCKED != 0
     }
 
     /// Locks or unlocks a part (the GUI's lock command).
     pub fn set_locked(&mut self, part: u32, locked: bool) {
-        self.locked[part as usize] = locked;
+        let c = &mut self.parts[part as usize];
+        c.flags = if locked {
+            c.flags | LOCKED
+        } else {
+            c.flags & !LOCKED
+        };
     }
 
+    #[inline]
     pub fn is_rotatable(&self, part: u32) -> bool {
-        self.rotatable[part as usize]
+        self.parts[part as usize].flags & ROTATABLE != 0
     }
 
     pub fn grid(&self) -> f64 {
@@ -956,17 +1128,17 @@ impl Layout {
 
     /// Board rectangle of a part's courtyard (not grown).
     pub fn courtyard(&self, part: u32) -> Rect {
-        self.court[part as usize]
+        self.parts[part as usize].court_now()
     }
 
     /// Board rectangle of a part's courtyard grown by half the clearance.
     pub fn grown_courtyard(&self, part: u32) -> Rect {
-        self.grown[part as usize]
+        self.parts[part as usize].grown()
     }
 
     /// Courtyard of a part if it stood at `at` turned by `q`.
     pub fn courtyard_at(&self, part: u32, at: Point, q: Quarter) -> Rect {
-        self.court_off[part as usize][q.index()].translate(at)
+        self.parts[part as usize].court_at(at, q)
     }
 
     /// Appends the parts whose origin lies in the grid cells `x0..=x1` by `y0..=y1` (cell
@@ -981,8 +1153,8 @@ impl Layout {
         );
         let start = out.len();
         self.hash.for_each_near(&r, |e| {
-            let p = self.pos[e.id as usize];
-            let (cx, cy) = ((p.x / g).round() as i64, (p.y / g).round() as i64);
+            let p = self.parts[e.id as usize].pos;
+            let (cx, cy) = (super::anneal::round(p.x / g), super::anneal::round(p.y / g));
             if (x0..=x1).contains(&cx) && (y0..=y1).contains(&cy) {
                 out.push(e.id);
             }
@@ -999,7 +1171,7 @@ impl Layout {
     pub fn neighbour_centroid(&self, part: u32) -> Option<Point> {
         let (mut sx, mut sy, mut k) = (0.0, 0.0, 0u32);
         for p in self.pins_of(part as usize) {
-            let net = self.pin_net[p] as usize;
+            let net = self.pins[p].net as usize;
             if self.net_start_len(net) > LARGE_NET {
                 continue;
             }
@@ -1021,28 +1193,27 @@ impl Layout {
     #[inline]
     pub fn part_at(&self, p: Point, not: u32) -> Option<u32> {
         self.hash
-            .min_at_point(p, |id| id != not && self.pos[id as usize] == p)
+            .min_at_point(p, |id| id != not && self.parts[id as usize].pos == p)
     }
 
     /// Overlap, outside and keep-out areas of one part (for conflict reports).
     pub fn part_violations(&self, part: u32) -> (f64, f64, f64) {
-        let i = part as usize;
-        let g = self.grown[i];
-        let c = self.court[i];
-        let ov = self.overlap_near(&g, self.mask[i], [part, u32::MAX]);
-        (ov, self.outside_of(&c), self.keepout_of(&c, self.mask[i]))
+        let cell = &self.parts[part as usize];
+        let (g, c) = (cell.grown(), cell.court_now());
+        let ov = self.overlap_near(&g, cell.mask(), [part, u32::MAX]);
+        (ov, self.outside_of(&c), self.keepout_of(&c, cell.mask()))
     }
 
     /// Parts whose grown courtyards overlap part `part`'s by more than `eps` mm^2.
     pub fn overlapping(&self, part: u32, eps: f64) -> Vec<u32> {
         let i = part as usize;
-        let g = self.grown[i];
+        let g = self.parts[i].grown();
         let mut out = Vec::new();
         self.hash.for_each_near(&g, |e| {
             let j = e.id as usize;
             if j != i
-                && self.mask[i] & self.mask[j] != 0
-                && self.grown[j].overlap_area(&g) > eps
+                && self.parts[i].mask() & self.parts[j].mask() != 0
+                && self.parts[j].grown().overlap_area(&g) > eps
                 && !out.contains(&e.id)
             {
                 out.push(e.id);
@@ -1055,12 +1226,12 @@ impl Layout {
     /// The part keep-outs a part's courtyard intrudes on by more than `eps` mm^2: name
     /// and intruding area of each.
     pub fn keepouts_hit(&self, part: u32, eps: f64) -> Vec<(String, f64)> {
-        let i = part as usize;
-        let c = self.court[i];
+        let cell = &self.parts[part as usize];
+        let c = cell.court_now();
         self.keepouts
             .iter()
             .enumerate()
-            .filter(|(_, k)| k.mask & self.mask[i] != 0)
+            .filter(|(_, k)| k.mask & cell.mask() != 0)
             .map(|(k, ko)| (k, ko, ko.shape.overlap_with_rect(&c)))
             .filter(|(_, _, a)| *a > eps)
             .map(|(k, ko, a)| {
@@ -1076,6 +1247,20 @@ impl Layout {
 
     /// Outside area of a part's courtyard.
     pub fn outside_area(&self, part: u32) -> f64 {
-        self.outside_of(&self.court[part as usize])
+        self.outside_of(&self.parts[part as usize].court_now())
     }
+}
+
+/// A non-binding hint to fetch the cache line holding `p` (a no-op off x86-64). Never
+/// faults, whatever `p` points at.
+#[inline(always)]
+pub(crate) fn prefetch<T>(p: *const T) {
+    #[cfg(target_arch = "x86_64")]
+    {
+        use std::arch::x86_64::{_MM_HINT_T0, _mm_prefetch};
+        // SAFETY: a prefetch reads nothing architecturally and cannot fault.
+        unsafe { _mm_prefetch::<_MM_HINT_T0>(p.cast::<i8>()) };
+    }
+    #[cfg(not(target_arch = "x86_64"))]
+    let _ = p;
 }

@@ -637,6 +637,36 @@ proptest! {
     }
 }
 
+/// The annealer's cache hints (src/place/layout.rs, `Layout::prefetch_row` and the
+/// stages after it) are hints only: with them forced on or off, the same run gives the
+/// same placement bit for bit. The board is small enough that they would be off.
+#[test]
+fn cache_hints_do_not_change_the_run() {
+    let d = random_design(300, 4);
+    let run = |hints: bool| {
+        let opts = AnnealOptions {
+            seed: 9,
+            max_moves: Some(200_000),
+            ..AnnealOptions::default()
+        };
+        let mut an = Annealer::new(&d, opts).unwrap();
+        assert!(!an.layout().hints(), "300 parts fit the cache");
+        an.layout_mut().set_hints(hints);
+        an.run(|_| true);
+        let l = an.layout();
+        let pos: Vec<(u64, u64)> = l
+            .positions()
+            .iter()
+            .map(|p| (p.x.to_bits(), p.y.to_bits()))
+            .collect();
+        (pos, l.quarters().to_vec(), an.moves(), an.accepted())
+    };
+    let (on, off) = (run(true), run(false));
+    assert_eq!(on, off);
+    // The run did something: parts moved and turned.
+    assert!(on.3 > 10_000, "accepted {}", on.3);
+}
+
 // ---------------------------------------------------------------------------------------
 // 2. Boltzmann distribution of the Metropolis sampler.
 //    Source: Metropolis et al., J. Chem. Phys. 21, 1953 (CHECK-VALUES.md, "Annealing and
