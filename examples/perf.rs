@@ -14,6 +14,12 @@ fn main() {
         ..Default::default()
     };
     let mut a = Annealer::new(&d, o).unwrap();
+    // PERF_HINTS=on|off forces the annealer's cache hints (A/B measurements).
+    match std::env::var("PERF_HINTS").as_deref() {
+        Ok("on") => a.layout_mut().set_hints(true),
+        Ok("off") => a.layout_mut().set_hints(false),
+        _ => {}
+    }
     let t = std::time::Instant::now();
     a.run(|_| true);
     println!(
