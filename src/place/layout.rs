@@ -821,10 +821,20 @@ impl Layout {
                 let meta = &mut self.net_meta[net];
                 if meta.stamp != self.net_gen {
                     meta.stamp = self.net_gen;
-                    meta.dirty = meta.count as usize <= LARGE_NET;
+                    meta.dirty = meta.count != 2 && meta.count as usize <= LARGE_NET;
                     self.undo_nets.push((net as u32, self.bbox[net]));
                 }
-                if !meta.dirty {
+                if meta.count == 2 {
+                    // A two-pin net's box is exactly its two pins, so the pin that stays
+                    // is the box's other side in each axis: no rescan, and no read of a
+                    // pin of another part (a cache miss on a large board). Exact also
+                    // when both pins move: the box then holds the first one's new place.
+                    let b = &mut self.bbox[net];
+                    let sx = if ox == b.xmin { b.xmax } else { b.xmin };
+                    let sy = if oy == b.ymin { b.ymax } else { b.ymin };
+                    (b.xmin, b.xmax) = if nx < sx { (nx, sx) } else { (sx, nx) };
+                    (b.ymin, b.ymax) = if ny < sy { (ny, sy) } else { (sy, ny) };
+                } else if !meta.dirty {
                     let b = &mut self.bbox[net];
                     let ok_x =
                         update_axis(&mut b.xmin, &mut b.xmax, &mut b.nxmin, &mut b.nxmax, ox, nx);
