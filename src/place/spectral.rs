@@ -22,17 +22,20 @@
 //!    gradient solves, vectors kept orthogonal to the constant vector of each connected
 //!    piece) with Rayleigh-Ritz steps. Parts with no nets, and single parts, sit at the
 //!    centre.
-//! 3. **Spreading.** Recursive bisection: cut the longer side of a region at a whole
+//! 3. **Spreading.** Recursive bisection of a box of the board's aspect that the parts'
+//!    courtyards fill to [`SPREAD_FILL`] (the whole board's box when they fill more),
+//!    centred on their mean coordinate: cut the longer side of a region at a whole
 //!    number of grid steps near the middle of its parts' courtyard area, give each side
 //!    the parts with the lowest or highest coordinate along that side in proportion to
 //!    its area, until one part is left; it goes to its region's centre on the placement
 //!    grid. Sorting makes the result independent of the axes' scales; the plane's
 //!    rotation (arbitrary when the two eigenvalues are equal, as on a square grid) and
 //!    mirror image are chosen by the shortest wiring (weighted HPWL) after spreading:
-//!    16 angles x 2 mirror images, then ten halvings of the step about the best. Locked parts stay put; the cuts ignore them, keep-outs and
-//!    the outline's shape (its bounding box is split), so the result is legal only
-//!    where the board is simple: the anneal and the legal finish repair the rest.
-//! 4. **Anneal** from that start at a low temperature (10 % of uphill moves accepted) in
+//!    16 angles x 2 mirror images, then ten halvings of the step about the best.
+//!    Locked parts stay put; the cuts ignore them, keep-outs and the outline's shape
+//!    (its bounding box is split), so the result is legal only where the board is
+//!    simple: the anneal and the legal finish repair the rest.
+//! 4. **Anneal** from that start at a low temperature (20 % of uphill moves accepted) in
 //!    a window of a few part sides, then the usual legal finish.
 //!
 //! Deterministic: no hash-map order, a fixed seed for the iteration's start vectors.
@@ -48,11 +51,13 @@ use crate::model::{Design, Point, Rect};
 /// Nets with more parts than this are left out of the part graph (see the module docs).
 pub const CLIQUE_LIMIT: usize = 12;
 /// Fraction of uphill moves accepted at the anneal's start.
-pub const START_ACCEPTANCE: f64 = 0.1;
+pub const START_ACCEPTANCE: f64 = 0.2;
 /// The anneal's start window, in median part sides.
 pub const WINDOW_SIDES: f64 = 4.0;
 /// Rotations of the spectral plane tried, evenly over a full turn (each also mirrored).
 const ANGLES: usize = 16;
+/// Courtyard fill of the region the bisection spreads the parts over (at most the board).
+pub const SPREAD_FILL: f64 = 0.5;
 /// Halvings of the angle step about the best coarse angle.
 const REFINE_ROUNDS: usize = 10;
 
@@ -596,7 +601,8 @@ pub fn spread(design: &Design, coords: &[Point]) -> Vec<Point> {
         .map(|f| f.courtyard.area().max(1e-9))
         .collect();
     let movable: Vec<usize> = (0..parts.len()).filter(|&i| !parts[i].locked).collect();
-    let mut stack: Vec<(Rect, Vec<usize>)> = vec![(bounds, movable)];
+    let region = compact_region(&bounds, &movable, &area, coords);
+    let mut stack: Vec<(Rect, Vec<usize>)> = vec![(region, movable)];
     while let Some((region, mut items)) = stack.pop() {
         match items.len() {
             0 => continue,
@@ -670,6 +676,29 @@ pub fn spread(design: &Design, coords: &[Point]) -> Vec<Point> {
         stack.push((lo, items));
     }
     at
+}
+
+/// The region the bisection splits: the board's box, or on a board the parts fill to
+/// less than [`SPREAD_FILL`], a box of the board's aspect holding their courtyards at
+/// that fill, centred on their area-weighted mean coordinate and kept inside the board
+/// (spreading over the whole box would set related parts farther apart than needed).
+fn compact_region(bounds: &Rect, movable: &[usize], area: &[f64], coords: &[Point]) -> Rect {
+    let total: f64 = movable.iter().map(|&i| area[i]).sum();
+    let want = total / SPREAD_FILL;
+    if movable.is_empty() || want >= bounds.area() {
+        return *bounds;
+    }
+    let k = (want / bounds.area()).sqrt();
+    let (w, h) = (bounds.width() * k, bounds.height() * k);
+    let mut c = Point::new(0.0, 0.0);
+    for &i in movable {
+        c = c.add(Point::new(coords[i].x * area[i], coords[i].y * area[i]));
+    }
+    let c = Point::new(
+        (c.x / total).clamp(bounds.min.x + w / 2.0, bounds.max.x - w / 2.0),
+        (c.y / total).clamp(bounds.min.y + h / 2.0, bounds.max.y - h / 2.0),
+    );
+    Rect::centered(c, w, h)
 }
 
 /// The origin that puts part `i`'s courtyard centre at `region`'s centre, on the grid,
