@@ -9,7 +9,7 @@ use anyhow::Result;
 use serde_json::{Value, json};
 
 use lehr::model::resolve;
-use lehr::place::{self, AnnealOptions, Annealer, Schedule, generate};
+use lehr::place::{self, AnnealOptions, Annealer, Schedule, Start, generate};
 
 use crate::cli::BenchArgs;
 
@@ -145,6 +145,23 @@ pub fn run(args: &BenchArgs) -> Result<ExitCode> {
                 format!("grid{n}_multilevel_seconds"),
                 json!(m.report.seconds),
             );
+            // The same instance from the analytical start (`--start spectral`).
+            let sp = AnnealOptions {
+                start: Start::Spectral,
+                ..opts.clone()
+            };
+            let s = place::place(&design, &sp, |_| true)?;
+            let sr = s.report.wirelength_mm / opt;
+            say(format!(
+                "grid {n}x{n} spectral start ({}, effort {effort}): ratio {sr:.4}, legal {}, {:.2} s, {} moves",
+                schedule.name(),
+                s.report.legal,
+                s.report.seconds,
+                s.report.moves
+            ));
+            out.insert(format!("grid{n}_spectral_ratio"), json!(sr));
+            out.insert(format!("grid{n}_spectral_seconds"), json!(s.report.seconds));
+            out.insert(format!("grid{n}_spectral_legal"), json!(s.report.legal));
             let descent = AnnealOptions {
                 schedule: Schedule::Descent,
                 max_moves: Some(r.moves),

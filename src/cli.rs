@@ -11,7 +11,7 @@ use indicatif::{ProgressBar, ProgressStyle};
 use serde_json::json;
 
 use lehr::model::{Board, Design};
-use lehr::place::{self, AnnealOptions, Placed, Schedule, StageReport, generate};
+use lehr::place::{self, AnnealOptions, Placed, Schedule, StageReport, Start, generate};
 
 /// The board shown when no file is given: an invented bench LED dimmer.
 pub const SAMPLE_BOARD: &str = include_str!("../sample-boards/led-dimmer.board.ron");
@@ -77,6 +77,11 @@ struct PlaceArgs {
     /// dense boards).
     #[arg(long)]
     multilevel: bool,
+    /// Where the parts start: given (the file's positions, random spots for unplaced
+    /// parts) or spectral (an analytical placement, then a cool anneal; overrides
+    /// --scatter and --multilevel).
+    #[arg(long, default_value = "given", value_parser = parse_start)]
+    start: Start,
     /// Where to write the placed board (default: NAME.placed.board.ron beside the input).
     #[arg(long)]
     out: Option<PathBuf>,
@@ -153,6 +158,10 @@ fn parse_schedule(s: &str) -> Result<Schedule, String> {
     s.parse()
 }
 
+fn parse_start(s: &str) -> Result<Start, String> {
+    s.parse()
+}
+
 pub fn run() -> Result<ExitCode> {
     let cli = Cli::parse();
     match cli.command {
@@ -199,6 +208,7 @@ fn place_cmd(a: PlaceArgs) -> Result<ExitCode> {
         effort: a.effort,
         scatter: a.scatter,
         multilevel: a.multilevel,
+        start: a.start,
         ..AnnealOptions::default()
     };
     let out = a

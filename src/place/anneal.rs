@@ -60,6 +60,43 @@ pub struct AnnealOptions {
     /// ([`super::multilevel`]); used by [`super::place`], not by a bare [`Annealer`].
     #[serde(default)]
     pub multilevel: bool,
+    /// Where the parts start: the file's positions (and random spots for unplaced
+    /// parts), or the analytical start of [`super::spectral`]; used by
+    /// [`super::place`], not by a bare [`Annealer`].
+    #[serde(default)]
+    pub start: Start,
+}
+
+/// Where a placement run starts ([`AnnealOptions::start`]).
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Serialize, Deserialize)]
+pub enum Start {
+    /// The file's positions; unplaced parts (all unlocked parts with `scatter`) at
+    /// random spots; annealing from the start temperature.
+    #[default]
+    Given,
+    /// Quadratic and spectral placement spread by recursive bisection, then annealing
+    /// from a cool start in a small window ([`super::spectral`]).
+    Spectral,
+}
+
+impl Start {
+    pub fn name(self) -> &'static str {
+        match self {
+            Start::Given => "given",
+            Start::Spectral => "spectral",
+        }
+    }
+}
+
+impl std::str::FromStr for Start {
+    type Err = String;
+    fn from_str(s: &str) -> Result<Start, String> {
+        match s {
+            "given" => Ok(Start::Given),
+            "spectral" => Ok(Start::Spectral),
+            _ => Err(format!("unknown start {s:?} (given or spectral)")),
+        }
+    }
 }
 
 impl Default for AnnealOptions {
@@ -80,6 +117,7 @@ impl Default for AnnealOptions {
             scatter: false,
             start_window: None,
             multilevel: false,
+            start: Start::Given,
         }
     }
 }
@@ -403,6 +441,10 @@ impl Annealer {
     /// window, or a displacement to that spot. `None` if the draw moved nothing.
     #[inline]
     fn propose(&mut self) -> Option<Proposal> {
+        if self.movable.is_empty() {
+            // Every part locked: nothing to draw from.
+            return None;
+        }
         let ahead = self.next_part();
         let a = ahead.part;
         let pos = self.layout.position(a);

@@ -5,6 +5,8 @@
 //! - [`anneal`]: moves, Metropolis acceptance and the stage loop;
 //! - [`legal`]: snapping and the final repair, with a report of what remains;
 //! - [`generate`]: synthetic boards (the known-optimal grid, random benchmark boards);
+//! - [`multilevel`]: clusters first, then parts;
+//! - [`spectral`]: an analytical start (quadratic and spectral placement);
 //! - [`mst`]: minimum spanning trees of pins (unrouted connections, wiring estimates).
 //!
 //! **Invariant:** nothing here does I/O or spawns threads; the same design, options and
@@ -19,12 +21,13 @@ pub mod mst;
 pub mod multilevel;
 pub mod rng;
 pub mod schedule;
+pub mod spectral;
 
 use std::time::Instant;
 
 use serde::{Deserialize, Serialize};
 
-pub use anneal::{AnnealOptions, Annealer, PlaceError, StageReport};
+pub use anneal::{AnnealOptions, Annealer, PlaceError, StageReport, Start};
 pub use layout::{Layout, PartMove, Terms, Weights};
 pub use legal::{Conflict, ConflictKind};
 pub use schedule::Schedule;
@@ -94,6 +97,9 @@ pub fn place(
     opts: &AnnealOptions,
     observe: impl FnMut(&StageReport) -> bool,
 ) -> Result<Placed, PlaceError> {
+    if opts.start == Start::Spectral {
+        return spectral::place(design, opts, observe);
+    }
     if opts.multilevel {
         return multilevel::place(design, opts, observe);
     }

@@ -198,7 +198,7 @@ fn snap(p: Point, grid: f64) -> Point {
 }
 
 /// Median of the shorter courtyard side over the movable parts.
-fn median_side(d: &Design) -> f64 {
+pub(super) fn median_side(d: &Design) -> f64 {
     let mut sides: Vec<f64> = d
         .board
         .parts
