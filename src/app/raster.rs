@@ -98,6 +98,24 @@ impl FastPen<'_> {
     }
 }
 
+/// Whether a polygon is convex: every turn goes the same way (collinear ones allowed).
+/// A star also turns one way only; the model rejects self-crossing outlines before they
+/// get here (`model::check`).
+fn is_convex(pts: &[(f32, f32)]) -> bool {
+    let n = pts.len();
+    if n < 3 {
+        return false;
+    }
+    let (mut pos, mut neg) = (false, false);
+    for k in 0..n {
+        let (a, b, c) = (pts[k], pts[(k + 1) % n], pts[(k + 2) % n]);
+        let cross = (b.0 - a.0) * (c.1 - b.1) - (b.1 - a.1) * (c.0 - b.0);
+        pos |= cross > 0.0;
+        neg |= cross < 0.0;
+    }
+    !(pos && neg) && (pos || neg)
+}
+
 /// The first pixel whose centre is at or right of `x`, clamped to `0..=n`.
 fn first_centre(x: f32, n: u32) -> usize {
     if x.is_nan() {
@@ -118,6 +136,10 @@ impl FastPen<'_> {
         let (dx, dy) = (b.0 - a.0, b.1 - a.1);
         let len = dx.hypot(dy);
         if len.is_nan() || len < 1e-3 {
+            return;
+        }
+        let src = Source::new(c);
+        if src.packed == 0 {
             return;
         }
         let (pw, ph) = (self.skia.pixmap.width(), self.skia.pixmap.height());
@@ -145,30 +167,60 @@ impl FastPen<'_> {
                 } else {
                     u * stride + v * 4
                 };
-                blend_span(&mut data[at..at + 4], c);
+                let p = &mut data[at..at + 4];
+                let d = u32::from_le_bytes([p[0], p[1], p[2], p[3]]);
+                let out = if src.inv == 0 {
+                    src.packed
+                } else {
+                    src.over(d)
+                };
+                p.copy_from_slice(&out.to_le_bytes());
             }
         }
     }
 }
 
+/// A colour ready to blend: premultiplied RGBA packed little-endian, and 255 minus its
+/// alpha.
+#[derive(Clone, Copy)]
+struct Source {
+    packed: u32,
+    inv: u32,
+}
+
+impl Source {
+    fn new(c: Color32) -> Source {
+        let s = c.to_array();
+        Source {
+            packed: u32::from_le_bytes(s),
+            inv: 255 - u32::from(s[3]),
+        }
+    }
+
+    /// `self` over the pixel `d`: each channel `s + d * (255 - sa) / 255`, rounded; red
+    /// and blue, then green and alpha, two 16-bit lanes at a time. Premultiplied channels
+    /// never exceed their alpha, so no lane carries into the next.
+    #[inline]
+    fn over(self, d: u32) -> u32 {
+        const M: u32 = 0x00ff_00ff;
+        let div = |t: u32| ((t + ((t >> 8) & M)) >> 8) & M;
+        let rb = div((d & M) * self.inv + 0x0080_0080);
+        let ga = div(((d >> 8) & M) * self.inv + 0x0080_0080);
+        self.packed.wrapping_add(rb | (ga << 8))
+    }
+}
+
 /// Blends one colour over a run of premultiplied RGBA pixels ("source over").
 fn blend_span(px: &mut [u8], c: Color32) {
-    let s = c.to_array();
-    if s[3] == 255 {
+    let s = Source::new(c);
+    if s.inv == 0 {
         for p in px.chunks_exact_mut(4) {
-            p.copy_from_slice(&s);
+            p.copy_from_slice(&s.packed.to_le_bytes());
         }
-        return;
-    }
-    if s[3] == 0 && s[..3] == [0, 0, 0] {
-        return;
-    }
-    let inv = 255 - u16::from(s[3]);
-    for p in px.chunks_exact_mut(4) {
-        for k in 0..4 {
-            // d * (255 - sa) / 255, rounded.
-            let t = u16::from(p[k]) * inv + 128;
-            p[k] = s[k].saturating_add(((t + (t >> 8)) >> 8) as u8);
+    } else if s.packed != 0 {
+        for p in px.chunks_exact_mut(4) {
+            let d = u32::from_le_bytes([p[0], p[1], p[2], p[3]]);
+            p.copy_from_slice(&s.over(d).to_le_bytes());
         }
     }
 }
@@ -218,7 +270,14 @@ impl Pen for FastPen<'_> {
     }
 
     fn fill_polygon(&mut self, pts: &[Point], c: Color32) {
-        self.skia.fill_polygon(pts, c);
+        // Board outlines are mostly rectangles: a convex one is filled here (tiny-skia's
+        // smoothed fill samples the whole board area several times over).
+        let px: Vec<(f32, f32)> = pts.iter().map(|p| self.px(*p)).collect();
+        if is_convex(&px) {
+            self.fill_convex(&px, c);
+        } else {
+            self.skia.fill_polygon(pts, c);
+        }
     }
 
     fn text(&mut self, at: Point, h: f32, c: Color32, s: &str) {
@@ -279,6 +338,47 @@ mod tests {
         assert_eq!(px, [128, 128, 128, 255, 128, 128, 228, 255]);
         blend_span(&mut px, Color32::from_rgb(1, 2, 3));
         assert_eq!(px, [1, 2, 3, 255, 1, 2, 3, 255]);
+    }
+
+    #[test]
+    fn packed_blending_equals_the_per_channel_formula() {
+        // Every destination value against a few sources: the two-lanes-at-a-time
+        // arithmetic must give round(s + d * (255 - sa) / 255) per channel, as in
+        // floating point (the premultiplied source-over equation).
+        for sa in [0u8, 1, 64, 110, 128, 200, 254] {
+            let c = Color32::from_rgba_premultiplied(sa / 2, sa, sa / 3, sa);
+            let s = Source::new(c);
+            for d in 0..=255u8 {
+                let dst = u32::from_le_bytes([d / 4, d / 2, d, d]);
+                let out = s.over(dst).to_le_bytes();
+                for (k, dv) in [d / 4, d / 2, d, d].into_iter().enumerate() {
+                    let want = f64::from(c.to_array()[k])
+                        + (f64::from(dv) * f64::from(255 - sa) / 255.0).round();
+                    assert_eq!(f64::from(out[k]), want, "sa {sa} d {d} channel {k}");
+                }
+            }
+        }
+    }
+
+    #[test]
+    fn convex_polygons_are_told_from_concave_ones() {
+        let square = [(0.0, 0.0), (4.0, 0.0), (4.0, 4.0), (0.0, 4.0)];
+        let l = [
+            (0.0, 0.0),
+            (2.0, 0.0),
+            (2.0, 1.0),
+            (1.0, 1.0),
+            (1.0, 2.0),
+            (0.0, 2.0),
+        ];
+        assert!(is_convex(&square));
+        let mut back = square;
+        back.reverse();
+        assert!(is_convex(&back));
+        assert!(!is_convex(&l));
+        assert!(!is_convex(&square[..2]));
+        // All on one line: no area, not filled as a polygon.
+        assert!(!is_convex(&[(0.0, 0.0), (1.0, 0.0), (2.0, 0.0)]));
     }
 
     #[test]
