@@ -65,6 +65,8 @@ struct Picture {
     texture: egui::TextureHandle,
     key: PictureKey,
     pixmap: tiny_skia::Pixmap,
+    /// Part references, set with egui's fonts over the picture.
+    labels: Vec<raster::Label>,
     /// How many times it was drawn (tests).
     renders: u64,
 }
@@ -223,7 +225,7 @@ impl Canvas {
         g: &Geometry,
         pal: &Palette,
         marks: &Marks,
-    ) -> Option<(egui::TextureId, Vec2)> {
+    ) -> Option<(egui::TextureId, Vec2, Vec<raster::Label>)> {
         let ppp = ctx.pixels_per_point();
         let w = (rect.width() * ppp).round().max(0.0) as usize;
         let h = (rect.height() * ppp).round().max(0.0) as usize;
@@ -245,7 +247,7 @@ impl Canvas {
         if let Some(p) = &self.picture
             && p.key == key
         {
-            return Some((p.texture.id(), size));
+            return Some((p.texture.id(), size, p.labels.clone()));
         }
         // The board area under the canvas: its top-left corner is the picture's pixel (0, 0).
         let a = view.board_from_screen(rect.min);
@@ -261,7 +263,7 @@ impl Canvas {
                 old.map_or(0, |p| p.renders),
             ),
         };
-        raster::render_view(
+        let labels = raster::render_view(
             &mut pixmap,
             design,
             st,
@@ -287,9 +289,10 @@ impl Canvas {
             texture,
             key,
             pixmap,
+            labels: labels.clone(),
             renders: renders + 1,
         });
-        Some((id, size))
+        Some((id, size, labels))
     }
 
     /// The part being dragged, where it is now and its turn.
@@ -417,13 +420,22 @@ impl Canvas {
             self.picture = None;
             None
         };
-        if let Some((texture, size)) = picture {
+        if let Some((texture, size, labels)) = picture {
             painter.image(
                 texture,
                 egui::Rect::from_min_size(rect.min, size),
                 egui::Rect::from_min_max(pos2(0.0, 0.0), pos2(1.0, 1.0)),
                 Color32::WHITE,
             );
+            for (at, size, c, s) in labels {
+                painter.text(
+                    view.screen_from_board(at),
+                    egui::Align2::CENTER_CENTER,
+                    s,
+                    egui::FontId::monospace(size),
+                    c,
+                );
+            }
         } else {
             if self.paint_background {
                 painter.rect_filled(rect, 0.0, pal.background);

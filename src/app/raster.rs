@@ -1,7 +1,8 @@
 //! The canvas's cached board picture: the scene drawn into a pixmap by a small scanline
 //! filler of our own for its thousands of rectangles, lines and dots (tiny-skia's general
 //! path pipeline costs several microseconds a shape, too slow to redraw 1,000 parts a few
-//! times a second), and by tiny-skia for the few polygons and the text.
+//! times a second), and by tiny-skia for concave outlines. Part references are left to
+//! egui's text on top.
 //!
 //! Like the vector mesh it replaces (and like OpenGL filling triangles), a pixel is
 //! covered when its centre is inside a shape, without smoothing; colours are blended
@@ -19,7 +20,9 @@ use super::scene::{self, Geometry, Marks, Palette, Pen, Static};
 
 /// Draws the part of the board inside `view` (board millimetres; its top-left corner is
 /// pixel (0, 0)) into `pixmap` over the background colour, `scale` points per millimetre
-/// and `ppp` pixels per point.
+/// and `ppp` pixels per point. Returns the part references (board position, height in
+/// points, colour, text): the canvas sets them with egui's fonts on top, as the vector
+/// drawing does.
 #[allow(clippy::too_many_arguments)]
 pub fn render_view(
     pixmap: &mut Pixmap,
@@ -31,7 +34,7 @@ pub fn render_view(
     view: Rect,
     scale: f64,
     ppp: f32,
-) {
+) -> Vec<Label> {
     let [r, gg, b, a] = pal.background.to_srgba_unmultiplied();
     pixmap.fill(tiny_skia::Color::from_rgba8(r, gg, b, a));
     let mut pen = FastPen {
@@ -41,12 +44,18 @@ pub fn render_view(
             scale,
             ppp,
         },
+        labels: Vec::new(),
     };
     scene::draw(&mut pen, design, st, g, pal, marks);
+    pen.labels
 }
+
+/// Text to set over the picture: board position, height in points, colour, text.
+pub type Label = (Point, f32, Color32, String);
 
 struct FastPen<'a> {
     skia: SkiaPen<'a>,
+    labels: Vec<Label>,
 }
 
 impl FastPen<'_> {
@@ -281,7 +290,7 @@ impl Pen for FastPen<'_> {
     }
 
     fn text(&mut self, at: Point, h: f32, c: Color32, s: &str) {
-        self.skia.text(at, h, c, s);
+        self.labels.push((at, h, c, s.to_string()));
     }
 }
 
@@ -304,6 +313,7 @@ mod tests {
                 scale: 1.0,
                 ppp: 1.0,
             },
+            labels: Vec::new(),
         };
         // x 2.4..5.6 holds the centres 2.5, 3.5, 4.5, 5.5; board y 7..9 is pixel rows
         // 1..3 (y down), centres 1.5 and 2.5.
@@ -391,6 +401,7 @@ mod tests {
                 scale: 1.0,
                 ppp: 1.0,
             },
+            labels: Vec::new(),
         };
         // A diagonal 2 px wide, from pixel (2, 18) to (18, 2) in board terms (y up):
         // pixels along x = y (screen) are filled, far corners are not.
