@@ -7,6 +7,7 @@ use egui::{Color32, Mesh, Pos2, Sense, Shape, Vec2, pos2};
 use lehr::model::{Design, Point, Quarter, Rect};
 
 use super::Action;
+use super::raster;
 use super::scene::{self, Geometry, Marks, Palette, Pen, Static};
 use super::undo::PartState;
 
@@ -39,12 +40,57 @@ pub struct Canvas {
     last_view: Option<View>,
     /// The canvas's size on screen in the last frame.
     last_size: Option<Vec2>,
+    /// The canvas's place on screen in the last frame.
+    last_rect: Option<egui::Rect>,
     /// A place singled out (a broken rule): a ring is drawn around it, and around the
     /// courtyards of these parts.
     pub marker: Option<(Point, Vec<u32>)>,
     /// Paint the background (not needed when the window is cleared to its colour: one
     /// full-canvas fill less for a software renderer).
     pub paint_background: bool,
+    /// Boards of at least this many parts are drawn into a cached picture (see
+    /// [`Picture`]); smaller ones as a vector mesh every frame. `usize::MAX`: never.
+    pub picture_parts: usize,
+    picture: Option<Picture>,
+}
+
+/// Boards from this many parts up are drawn as a cached picture by default (see
+/// docs/performance.md, GUI, third round).
+pub const PICTURE_PARTS: usize = 300;
+
+/// The board drawn once with tiny-skia into a texture and shown as one textured
+/// rectangle until the board, the view or the marks change: a software OpenGL renderer
+/// pays for each triangle, and a large board's mesh has tens of thousands.
+struct Picture {
+    texture: egui::TextureHandle,
+    key: PictureKey,
+    pixmap: tiny_skia::Pixmap,
+    /// Part references, set with egui's fonts over the picture.
+    labels: Vec<raster::Label>,
+    /// How many times it was drawn (tests).
+    renders: u64,
+}
+
+impl std::fmt::Debug for Picture {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.debug_struct("Picture")
+            .field("key", &self.key)
+            .field("renders", &self.renders)
+            .finish_non_exhaustive()
+    }
+}
+
+/// What the picture shows; a frame with another key draws it again.
+#[derive(Clone, Copy, Debug, PartialEq)]
+struct PictureKey {
+    generation: u64,
+    center: Point,
+    scale: f64,
+    pixels: [usize; 2],
+    ppp: f32,
+    marks: Marks,
+    background: Color32,
+    board: Color32,
 }
 
 impl Default for Canvas {
@@ -60,8 +106,11 @@ impl Default for Canvas {
             labels: true,
             last_view: None,
             last_size: None,
+            last_rect: None,
             marker: None,
             paint_background: true,
+            picture_parts: PICTURE_PARTS,
+            picture: None,
         }
     }
 }
@@ -101,6 +150,7 @@ impl Canvas {
         *self = Canvas {
             labels: self.labels,
             paint_background: self.paint_background,
+            picture_parts: self.picture_parts,
             ..Canvas::default()
         };
     }
@@ -133,6 +183,118 @@ impl Canvas {
         self.scale
     }
 
+    /// Where the canvas was on the screen in the last frame.
+    #[cfg(test)]
+    pub fn last_rect(&self) -> Option<egui::Rect> {
+        self.last_rect
+    }
+
+    /// How many times the cached picture was drawn, and its size in pixels (none when
+    /// the board is drawn as a mesh).
+    #[cfg(test)]
+    pub fn picture(&self) -> Option<(u64, [usize; 2])> {
+        self.picture.as_ref().map(|p| (p.renders, p.texture.size()))
+    }
+
+    /// The colour of the cached picture at a screen point.
+    #[cfg(test)]
+    pub fn picture_pixel(&self, at: Pos2, ppp: f32) -> Option<Color32> {
+        let p = self.picture.as_ref()?;
+        let rect = self.last_rect?;
+        let x = ((at.x - rect.min.x) * ppp) as u32;
+        let y = ((at.y - rect.min.y) * ppp) as u32;
+        let c = p.pixmap.pixel(x, y)?.demultiply();
+        Some(Color32::from_rgba_unmultiplied(
+            c.red(),
+            c.green(),
+            c.blue(),
+            c.alpha(),
+        ))
+    }
+
+    /// Draws the board into the cached picture if what it shows changed, and returns the
+    /// texture and its size in points; `None` when the picture does not fit a texture.
+    #[allow(clippy::too_many_arguments)]
+    fn picture_for(
+        &mut self,
+        ctx: &egui::Context,
+        rect: egui::Rect,
+        view: &View,
+        design: &Design,
+        st: &Static,
+        g: &Geometry,
+        pal: &Palette,
+        marks: &Marks,
+    ) -> Option<(egui::TextureId, Vec2, Vec<raster::Label>)> {
+        let ppp = ctx.pixels_per_point();
+        let w = (rect.width() * ppp).round().max(0.0) as usize;
+        let h = (rect.height() * ppp).round().max(0.0) as usize;
+        let max_side = ctx.input(|i| i.max_texture_side);
+        if w == 0 || h == 0 || w > max_side || h > max_side {
+            return None;
+        }
+        let key = PictureKey {
+            generation: g.generation,
+            center: view.center,
+            scale: view.scale,
+            pixels: [w, h],
+            ppp,
+            marks: *marks,
+            background: pal.background,
+            board: pal.board,
+        };
+        let size = Vec2::new(w as f32 / ppp, h as f32 / ppp);
+        if let Some(p) = &self.picture
+            && p.key == key
+        {
+            return Some((p.texture.id(), size, p.labels.clone()));
+        }
+        // The board area under the canvas: its top-left corner is the picture's pixel (0, 0).
+        let a = view.board_from_screen(rect.min);
+        let b = view.board_from_screen(rect.min + size);
+        let area = Rect::bounding([a, b])?;
+        let (mut pixmap, texture, renders) = match self.picture.take() {
+            Some(p) if p.pixmap.width() as usize == w && p.pixmap.height() as usize == h => {
+                (p.pixmap, Some(p.texture), p.renders)
+            }
+            old => (
+                tiny_skia::Pixmap::new(w as u32, h as u32)?,
+                old.as_ref().map(|p| p.texture.clone()),
+                old.map_or(0, |p| p.renders),
+            ),
+        };
+        let labels = raster::render_view(
+            &mut pixmap,
+            design,
+            st,
+            g,
+            pal,
+            marks,
+            area,
+            view.scale,
+            ppp,
+        );
+        // Both are premultiplied RGBA, byte for byte.
+        let image = egui::ColorImage::from_rgba_premultiplied([w, h], pixmap.data());
+        let options = egui::TextureOptions::NEAREST;
+        let texture = match texture {
+            Some(mut t) => {
+                t.set(image, options);
+                t
+            }
+            None => ctx.load_texture("board picture", image, options),
+        };
+        let id = texture.id();
+        self.picture = Some(Picture {
+            texture,
+            key,
+            pixmap,
+            labels: labels.clone(),
+            renders: renders + 1,
+        });
+        Some((id, size, labels))
+    }
+
     /// The part being dragged, where it is now and its turn.
     pub fn dragging(&self) -> Option<(u32, Point, Quarter)> {
         self.drag.map(|d| (d.part, d.at, d.quarter))
@@ -150,6 +312,7 @@ impl Canvas {
         let (response, painter) = ui.allocate_painter(ui.available_size(), Sense::click_and_drag());
         let rect = response.rect;
         self.last_size = Some(rect.size());
+        self.last_rect = Some(rect);
         if self.fit_pending && rect.width() > 10.0 && rect.height() > 10.0 {
             let b = g.bounds.inflate(1.0);
             self.center = b.center();
@@ -243,15 +406,6 @@ impl Canvas {
 
         self.last_view = Some(view);
         // Paint.
-        if self.paint_background {
-            painter.rect_filled(rect, 0.0, pal.background);
-        }
-        let mut pen = EguiPen {
-            view,
-            clip: rect,
-            mesh: Mesh::default(),
-            texts: Vec::new(),
-        };
         let marks = Marks {
             selected: self.selected,
             hovered_part: self.hovered_part,
@@ -260,16 +414,49 @@ impl Canvas {
                 .or(hovered_net.filter(|_| self.hovered_part.is_none())),
             labels: self.labels,
         };
-        scene::draw(&mut pen, design, st, g, pal, &marks);
-        painter.add(Shape::mesh(pen.mesh));
-        for (at, size, c, s) in pen.texts {
-            painter.text(
-                at,
-                egui::Align2::CENTER_CENTER,
-                s,
-                egui::FontId::monospace(size),
-                c,
+        let picture = if g.parts.len() >= self.picture_parts {
+            self.picture_for(ui.ctx(), rect, &view, design, st, g, pal, &marks)
+        } else {
+            self.picture = None;
+            None
+        };
+        if let Some((texture, size, labels)) = picture {
+            painter.image(
+                texture,
+                egui::Rect::from_min_size(rect.min, size),
+                egui::Rect::from_min_max(pos2(0.0, 0.0), pos2(1.0, 1.0)),
+                Color32::WHITE,
             );
+            for (at, size, c, s) in labels {
+                painter.text(
+                    view.screen_from_board(at),
+                    egui::Align2::CENTER_CENTER,
+                    s,
+                    egui::FontId::monospace(size),
+                    c,
+                );
+            }
+        } else {
+            if self.paint_background {
+                painter.rect_filled(rect, 0.0, pal.background);
+            }
+            let mut pen = EguiPen {
+                view,
+                clip: rect,
+                mesh: Mesh::default(),
+                texts: Vec::new(),
+            };
+            scene::draw(&mut pen, design, st, g, pal, &marks);
+            painter.add(Shape::mesh(pen.mesh));
+            for (at, size, c, s) in pen.texts {
+                painter.text(
+                    at,
+                    egui::Align2::CENTER_CENTER,
+                    s,
+                    egui::FontId::monospace(size),
+                    c,
+                );
+            }
         }
         if let Some((at, parts)) = &self.marker {
             let stroke = egui::Stroke::new(2.5, pal.selected);

@@ -34,6 +34,7 @@ pub fn render(
         pixmap: &mut pixmap,
         bounds: b,
         scale,
+        ppp: 1.0,
     };
     let marks = Marks {
         labels,
@@ -70,18 +71,23 @@ fn paint(c: Color32) -> Paint<'static> {
     p
 }
 
-struct SkiaPen<'a> {
-    pixmap: &'a mut Pixmap,
+pub(super) struct SkiaPen<'a> {
+    pub(super) pixmap: &'a mut Pixmap,
     /// Board area shown; its top-left corner is pixel (0, 0).
-    bounds: Rect,
-    scale: f64,
+    pub(super) bounds: Rect,
+    /// Points per millimetre (what the scene's level of detail goes by).
+    pub(super) scale: f64,
+    /// Pixels per point (1 for the exported picture; the display's factor on the canvas).
+    pub(super) ppp: f32,
 }
 
 impl SkiaPen<'_> {
-    fn px(&self, p: Point) -> (f32, f32) {
+    /// Pixel position of a board point.
+    pub(super) fn px(&self, p: Point) -> (f32, f32) {
+        let k = self.scale * f64::from(self.ppp);
         (
-            ((p.x - self.bounds.min.x) * self.scale) as f32,
-            ((self.bounds.max.y - p.y) * self.scale) as f32,
+            ((p.x - self.bounds.min.x) * k) as f32,
+            ((self.bounds.max.y - p.y) * k) as f32,
         )
     }
 
@@ -98,8 +104,14 @@ impl Pen for SkiaPen<'_> {
         self.scale
     }
 
-    fn visible(&self, _r: &Rect) -> bool {
-        true
+    fn visible(&self, r: &Rect) -> bool {
+        // Inclusive, and a few pixels wider for outlines drawn across the edge.
+        let m = 4.0 / self.scale.max(1e-9);
+        let b = &self.bounds;
+        r.max.x >= b.min.x - m
+            && r.min.x <= b.max.x + m
+            && r.max.y >= b.min.y - m
+            && r.min.y <= b.max.y + m
     }
 
     fn fill_rect(&mut self, r: &Rect, c: Color32) {
@@ -117,7 +129,7 @@ impl Pen for SkiaPen<'_> {
     fn stroke_rect(&mut self, r: &Rect, w: f32, c: Color32) {
         if let Some(path) = self.rect_path(r) {
             let stroke = Stroke {
-                width: w,
+                width: w * self.ppp,
                 ..Stroke::default()
             };
             self.pixmap
@@ -133,7 +145,7 @@ impl Pen for SkiaPen<'_> {
         pb.line_to(bx, by);
         if let Some(path) = pb.finish() {
             let stroke = Stroke {
-                width: w,
+                width: w * self.ppp,
                 ..Stroke::default()
             };
             self.pixmap
@@ -143,7 +155,8 @@ impl Pen for SkiaPen<'_> {
 
     fn fill_circle(&mut self, centre: Point, r: f64, c: Color32) {
         let (x, y) = self.px(centre);
-        if let Some(path) = PathBuilder::from_circle(x, y, ((r * self.scale) as f32).max(0.3)) {
+        let rp = (r * self.scale) as f32 * self.ppp;
+        if let Some(path) = PathBuilder::from_circle(x, y, rp.max(0.3)) {
             self.pixmap.fill_path(
                 &path,
                 &paint(c),
@@ -178,7 +191,7 @@ impl Pen for SkiaPen<'_> {
 
     fn text(&mut self, at: Point, h: f32, c: Color32, s: &str) {
         let (cx, cy) = self.px(at);
-        if let Some(path) = text_path(s, h, cx, cy) {
+        if let Some(path) = text_path(s, h * self.ppp, cx, cy) {
             self.pixmap.fill_path(
                 &path,
                 &paint(c),

@@ -18,6 +18,7 @@ mod files;
 mod framebench;
 mod history;
 mod plots;
+mod raster;
 mod scene;
 pub(crate) mod svg;
 mod undo;

@@ -164,7 +164,13 @@ pub struct Geometry {
     pub unrouted: Vec<Unrouted>,
     /// Bounds of the outline and every part.
     pub bounds: Rect,
+    /// A number of this build, different for every [`Geometry::build`] of the process
+    /// (the canvas redraws its cached picture when it changes; 0 for the default).
+    pub generation: u64,
 }
+
+/// Source of [`Geometry::generation`].
+static GENERATION: std::sync::atomic::AtomicU64 = std::sync::atomic::AtomicU64::new(1);
 
 impl Geometry {
     /// The board as the snapshot has it, with `moved` (a part being dragged) overriding
@@ -249,6 +255,7 @@ impl Geometry {
             parts,
             unrouted,
             bounds,
+            generation: GENERATION.fetch_add(1, std::sync::atomic::Ordering::Relaxed),
         }
     }
 
@@ -313,7 +320,7 @@ pub trait Pen {
 }
 
 /// What the viewer singles out.
-#[derive(Clone, Copy, Debug, Default)]
+#[derive(Clone, Copy, Debug, Default, PartialEq)]
 pub struct Marks {
     pub selected: Option<u32>,
     pub hovered_part: Option<u32>,

@@ -540,3 +540,80 @@ fn a_netlist_imports_and_the_board_exports_fabrication_files() {
         "the board is kept"
     );
 }
+
+/// Large boards are drawn once into a texture and shown as one textured rectangle; the
+/// picture must show the board where the vector drawing would, at the display's pixel
+/// density, and be drawn again only when the board, the view or the marks change.
+#[test]
+fn the_cached_board_picture_matches_the_view_and_redraws_only_on_change() {
+    let mut app = grid_app();
+    // 64 parts: below the default threshold, so force the picture.
+    app.canvas.picture_parts = 0;
+    let pal = super::scene::Palette::dark();
+    let mut h = Harness::builder()
+        .with_size([1280.0, 800.0])
+        .with_pixels_per_point(2.0)
+        .build_ui_state(|ui, app: &mut LehrApp| app.show(ui), app);
+    h.run_steps(3);
+    let size = h
+        .state()
+        .canvas
+        .last_rect()
+        .expect("the canvas was drawn")
+        .size();
+    let (_, px) = h.state().canvas.picture().expect("a cached picture");
+    // Two pixels per point (HiDPI): the texture has twice the canvas's size in points.
+    assert_eq!(px[0], (size.x * 2.0).round() as usize);
+    assert_eq!(px[1], (size.y * 2.0).round() as usize);
+    // Pads show in the pad colour where the view puts them (a point between a pad's
+    // centre and its corner). Unrouted lines run through pad centres and the labels
+    // over the parts: leave them out for this (a new geometry number draws it again).
+    h.state_mut().canvas.labels = false;
+    h.state_mut().geom.unrouted.clear();
+    h.state_mut().geom.generation = u64::MAX;
+    h.step();
+    let (mut hits, mut total) = (0, 0);
+    let parts = h.state().geom.parts.clone();
+    for part in &parts {
+        for pad in &part.pads {
+            let r = pad.rect;
+            let p = lehr::model::Point::new(
+                r.center().x + 0.3 * r.width() / 2.0,
+                r.center().y + 0.3 * r.height() / 2.0,
+            );
+            let at = h.state().canvas.screen_from_board(p).unwrap();
+            let c = h.state().canvas.picture_pixel(at, 2.0).expect("inside");
+            total += 1;
+            if c == pal.pad_top {
+                hits += 1;
+            }
+        }
+    }
+    assert!(
+        total > 0 && hits * 10 >= total * 9,
+        "{hits} of {total} pads"
+    );
+    // Off the board, the background.
+    let corner = h.state().canvas.last_rect().unwrap().min + egui::vec2(1.0, 1.0);
+    assert_eq!(
+        h.state().canvas.picture_pixel(corner, 2.0),
+        Some(pal.background)
+    );
+    // Nothing changed: no new drawing.
+    let renders0 = h.state().canvas.picture().unwrap().0;
+    h.run_steps(3);
+    assert_eq!(h.state().canvas.picture().unwrap().0, renders0);
+    // Hovering a part marks it: drawn again, once.
+    let at = h
+        .state()
+        .canvas
+        .screen_from_board(parts[10].court.center())
+        .unwrap();
+    h.hover_at(at);
+    h.run_steps(3);
+    assert_eq!(h.state().canvas.picture().unwrap().0, renders0 + 1);
+    // Below the threshold the board is a mesh again and the picture is dropped.
+    h.state_mut().canvas.picture_parts = usize::MAX;
+    h.step();
+    assert!(h.state().canvas.picture().is_none());
+}
