@@ -421,7 +421,7 @@ impl Annealer {
     #[inline]
     fn draw_offset(&mut self, k: usize) {
         let g = self.layout.grid();
-        let w = (round(self.window / g) as u32).max(1);
+        let w = self.window_cells();
         let e = &mut self.ahead[k];
         e.dx = self.rng.symmetric(w);
         e.dy = self.rng.symmetric(w);
@@ -435,6 +435,12 @@ impl Annealer {
             (round(pos.y / g) + e.dy) as f64 * g,
         );
         e.bins = [own, self.layout.prefetch_bin_at(target)];
+    }
+
+    /// The displacement window in whole grid steps (at least one).
+    #[inline]
+    fn window_cells(&self) -> u32 {
+        (round(self.window / self.layout.grid()) as u32).max(1)
     }
 
     /// Picks a move: a quarter turn, a swap with the part at a random spot within the
@@ -462,7 +468,7 @@ impl Annealer {
             return Some(Proposal::Small([m, m], 1));
         }
         let g = self.layout.grid();
-        let mut w = (round(self.window / g) as u32).max(1);
+        let mut w = self.window_cells();
         if self.opts.block_fraction > 0.0 && w >= 2 && self.rng.unit() < self.opts.block_fraction {
             return self.propose_block(a, w).then_some(Proposal::Block);
         }

@@ -383,7 +383,8 @@ pub struct Layout {
     // Dynamic state.
     /// Position, turn and everything static a move needs, per part (the hot table).
     parts: Vec<PartCell>,
-    /// Copies of the parts' positions and turns, for callers that want slices.
+    /// Copies of the parts' positions and turns, for callers that want slices; written
+    /// only by [`Self::commit`], beside the rows.
     pos: Vec<Point>,
     quarter: Vec<Quarter>,
     /// Board position of each connected pin, x and y side by side (one cache line).
@@ -554,10 +555,6 @@ impl Layout {
     /// Recomputes every cache and running total from the part positions.
     pub fn rebuild(&mut self) {
         let n = self.parts.len();
-        for i in 0..n {
-            self.turn_part(i, self.quarter[i]);
-            self.parts[i].pos = self.pos[i];
-        }
         let np = self.pins.len();
         self.pin_xy.resize(np, [0.0; 2]);
         for c in &self.parts {
