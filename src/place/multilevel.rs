@@ -27,6 +27,7 @@ use std::time::Instant;
 
 use super::anneal::{AnnealOptions, Annealer, PlaceError, StageReport};
 use super::rng::Rng;
+use super::spectral::{self, Graph};
 use super::{Placed, finish};
 use crate::model::board::{Board, Copper, Net, Part, Side, rect_to_board, to_board};
 use crate::model::footprint::{FootprintSpec, PadShape, PadSpec};
@@ -268,43 +269,14 @@ fn coarsen(d: &Design, rng: &mut Rng, axis_x: bool, scatter: bool) -> Option<Lev
     // Connection weights between pairs of movable parts (clique model), as sorted
     // adjacency lists so every choice below is deterministic.
     let mut edges: Vec<(u32, u32, f64)> = Vec::new();
-    let mut on_net: Vec<u32> = Vec::new();
-    for (pins, net) in d.net_pins.iter().zip(&d.board.nets) {
-        on_net.clear();
-        on_net.extend(pins.iter().map(|p| p.part.0));
-        on_net.sort_unstable();
-        on_net.dedup();
-        let k = on_net.len();
-        if !(2..=MATCH_NET_LIMIT).contains(&k) {
-            continue;
+    spectral::clique_pairs(d, MATCH_NET_LIMIT, |a, b, w| {
+        let (ai, bi) = (a as usize, b as usize);
+        if !parts[ai].locked && !parts[bi].locked && class[ai] == class[bi] {
+            edges.push((a, b, w));
+            edges.push((b, a, w));
         }
-        let w = net.weight / (k - 1) as f64;
-        for (x, &a) in on_net.iter().enumerate() {
-            for &b in &on_net[x + 1..] {
-                let (ai, bi) = (a as usize, b as usize);
-                if !parts[ai].locked && !parts[bi].locked && class[ai] == class[bi] {
-                    edges.push((a, b, w));
-                    edges.push((b, a, w));
-                }
-            }
-        }
-    }
-    edges.sort_by_key(|e| (e.0, e.1));
-    edges.dedup_by(|next, kept| {
-        let same = (next.0, next.1) == (kept.0, kept.1);
-        if same {
-            kept.2 += next.2;
-        }
-        same
     });
-    let mut adj_start = vec![0usize; n + 1];
-    for e in &edges {
-        adj_start[e.0 as usize + 1] += 1;
-    }
-    for i in 0..n {
-        adj_start[i + 1] += adj_start[i];
-    }
-    let adj: Vec<(u32, f64)> = edges.iter().map(|e| (e.1, e.2)).collect();
+    let graph = Graph::from_directed(n, edges);
 
     // Visit in a random order, each free part taking its best free neighbour.
     let mut order = movable.clone();
@@ -319,7 +291,7 @@ fn coarsen(d: &Design, rng: &mut Rng, axis_x: bool, scatter: bool) -> Option<Lev
             continue;
         }
         let mut best: Option<(f64, usize)> = None;
-        for &(v, w) in &adj[adj_start[u]..adj_start[u + 1]] {
+        for &(v, w) in graph.neighbours(u) {
             let v = v as usize;
             if matched[v] || area[u] + area[v] > AREA_CAP * mean_area {
                 continue;

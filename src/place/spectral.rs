@@ -81,6 +81,12 @@ impl Graph {
                 e.push((b, a, w));
             }
         }
+        Graph::from_directed(n, e)
+    }
+
+    /// A graph on `n` nodes from directed edges (each undirected edge given both ways,
+    /// every node `< n`), kept as they are: parallel edges add up in the order given.
+    pub(super) fn from_directed(n: usize, mut e: Vec<(u32, u32, f64)>) -> Graph {
         e.sort_by_key(|x| (x.0, x.1));
         e.dedup_by(|next, kept| {
             let same = (next.0, next.1) == (kept.0, kept.1);
@@ -111,7 +117,8 @@ impl Graph {
         self.degree.is_empty()
     }
 
-    fn neighbours(&self, i: usize) -> &[(u32, f64)] {
+    /// Node `i`'s neighbours and the weights to them, in increasing order.
+    pub(super) fn neighbours(&self, i: usize) -> &[(u32, f64)] {
         &self.adj[self.start[i]..self.start[i + 1]]
     }
 
@@ -446,8 +453,15 @@ fn jacobi_eigen(mut a: Vec<Vec<f64>>) -> (Vec<f64>, Vec<Vec<f64>>) {
 
 /// The part graph of a design (see the module docs): one node per part.
 pub fn part_graph(design: &Design) -> Graph {
-    let n = design.board.parts.len();
     let mut edges: Vec<(u32, u32, f64)> = Vec::new();
+    clique_pairs(design, CLIQUE_LIMIT, |a, b, w| edges.push((a, b, w)));
+    Graph::from_edges(design.board.parts.len(), &edges)
+}
+
+/// Calls `f(a, b, w)` for every pair `a < b` of distinct parts on a net of `k` parts,
+/// `2 <= k <= limit`, with `w` the net's weight over `k - 1` (the clique net model), net
+/// by net in the board's order.
+pub(super) fn clique_pairs(design: &Design, limit: usize, mut f: impl FnMut(u32, u32, f64)) {
     let mut on_net: Vec<u32> = Vec::new();
     for (pins, net) in design.net_pins.iter().zip(&design.board.nets) {
         on_net.clear();
@@ -455,17 +469,16 @@ pub fn part_graph(design: &Design) -> Graph {
         on_net.sort_unstable();
         on_net.dedup();
         let k = on_net.len();
-        if !(2..=CLIQUE_LIMIT).contains(&k) {
+        if !(2..=limit).contains(&k) {
             continue;
         }
         let w = net.weight / (k - 1) as f64;
         for (x, &a) in on_net.iter().enumerate() {
             for &b in &on_net[x + 1..] {
-                edges.push((a, b, w));
+                f(a, b, w);
             }
         }
     }
-    Graph::from_edges(n, &edges)
 }
 
 /// Courtyard centre of part `i` relative to its origin, as placed (turned, mirrored).
