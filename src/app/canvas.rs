@@ -213,7 +213,8 @@ impl Canvas {
     }
 
     /// Draws the board into the cached picture if what it shows changed, and returns the
-    /// texture and its size in points; `None` when the picture does not fit a texture.
+    /// texture and its size in points (the labels stay in `self.picture`); `None` when
+    /// the picture does not fit a texture.
     #[allow(clippy::too_many_arguments)]
     fn picture_for(
         &mut self,
@@ -225,7 +226,7 @@ impl Canvas {
         g: &Geometry,
         pal: &Palette,
         marks: &Marks,
-    ) -> Option<(egui::TextureId, Vec2, Vec<raster::Label>)> {
+    ) -> Option<(egui::TextureId, Vec2)> {
         let ppp = ctx.pixels_per_point();
         let w = (rect.width() * ppp).round().max(0.0) as usize;
         let h = (rect.height() * ppp).round().max(0.0) as usize;
@@ -247,7 +248,7 @@ impl Canvas {
         if let Some(p) = &self.picture
             && p.key == key
         {
-            return Some((p.texture.id(), size, p.labels.clone()));
+            return Some((p.texture.id(), size));
         }
         // The board area under the canvas: its top-left corner is the picture's pixel (0, 0).
         let a = view.board_from_screen(rect.min);
@@ -289,10 +290,10 @@ impl Canvas {
             texture,
             key,
             pixmap,
-            labels: labels.clone(),
+            labels,
             renders: renders + 1,
         });
-        Some((id, size, labels))
+        Some((id, size))
     }
 
     /// The part being dragged, where it is now and its turn.
@@ -420,21 +421,17 @@ impl Canvas {
             self.picture = None;
             None
         };
-        if let Some((texture, size, labels)) = picture {
+        if let Some((texture, size)) = picture {
             painter.image(
                 texture,
                 egui::Rect::from_min_size(rect.min, size),
                 egui::Rect::from_min_max(pos2(0.0, 0.0), pos2(1.0, 1.0)),
                 Color32::WHITE,
             );
-            for (at, size, c, s) in labels {
-                painter.text(
-                    view.screen_from_board(at),
-                    egui::Align2::CENTER_CENTER,
-                    s,
-                    egui::FontId::monospace(size),
-                    c,
-                );
+            if let Some(p) = &self.picture {
+                for (at, size, c, s) in &p.labels {
+                    label(&painter, view.screen_from_board(*at), *size, *c, s);
+                }
             }
         } else {
             if self.paint_background {
@@ -448,14 +445,8 @@ impl Canvas {
             };
             scene::draw(&mut pen, design, st, g, pal, &marks);
             painter.add(Shape::mesh(pen.mesh));
-            for (at, size, c, s) in pen.texts {
-                painter.text(
-                    at,
-                    egui::Align2::CENTER_CENTER,
-                    s,
-                    egui::FontId::monospace(size),
-                    c,
-                );
+            for (at, size, c, s) in &pen.texts {
+                label(&painter, *at, *size, *c, s);
             }
         }
         if let Some((at, parts)) = &self.marker {
@@ -629,6 +620,18 @@ impl Pen for EguiPen {
         let p = self.view.screen_from_board(at);
         self.texts.push((p, h, c, s.to_string()));
     }
+}
+
+/// A part reference centred on `at`, in egui's monospace font (over the mesh or the
+/// cached picture alike).
+fn label(painter: &egui::Painter, at: Pos2, size: f32, c: Color32, s: &str) {
+    painter.text(
+        at,
+        egui::Align2::CENTER_CENTER,
+        s,
+        egui::FontId::monospace(size),
+        c,
+    );
 }
 
 #[cfg(test)]
