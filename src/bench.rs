@@ -126,42 +126,40 @@ pub fn run(args: &BenchArgs) -> Result<ExitCode> {
         out.insert(format!("grid{n}_legal"), json!(r.legal));
         out.insert(format!("grid{n}_schedule"), json!(schedule.name()));
         if Some(n) == last {
-            // The same instance, clusters first (`--multilevel`).
-            let ml = AnnealOptions {
-                multilevel: true,
-                ..opts.clone()
-            };
-            let m = place::place(&design, &ml, |_| true)?;
-            let mr = m.report.wirelength_mm / opt;
-            say(format!(
-                "grid {n}x{n} multilevel ({}, effort {effort}): ratio {mr:.4}, legal {}, {:.2} s, {} moves",
-                schedule.name(),
-                m.report.legal,
-                m.report.seconds,
-                m.report.moves
-            ));
-            out.insert(format!("grid{n}_multilevel_ratio"), json!(mr));
-            out.insert(
-                format!("grid{n}_multilevel_seconds"),
-                json!(m.report.seconds),
-            );
-            // The same instance from the analytical start (`--start spectral`).
-            let sp = AnnealOptions {
-                start: Start::Spectral,
-                ..opts.clone()
-            };
-            let s = place::place(&design, &sp, |_| true)?;
-            let sr = s.report.wirelength_mm / opt;
-            say(format!(
-                "grid {n}x{n} spectral start ({}, effort {effort}): ratio {sr:.4}, legal {}, {:.2} s, {} moves",
-                schedule.name(),
-                s.report.legal,
-                s.report.seconds,
-                s.report.moves
-            ));
-            out.insert(format!("grid{n}_spectral_ratio"), json!(sr));
-            out.insert(format!("grid{n}_spectral_seconds"), json!(s.report.seconds));
-            out.insert(format!("grid{n}_spectral_legal"), json!(s.report.legal));
+            // The same instance, clusters first (`--multilevel`) and from the analytical
+            // start (`--start spectral`).
+            let variants = [
+                (
+                    "multilevel",
+                    "multilevel",
+                    AnnealOptions {
+                        multilevel: true,
+                        ..opts.clone()
+                    },
+                ),
+                (
+                    "spectral",
+                    "spectral start",
+                    AnnealOptions {
+                        start: Start::Spectral,
+                        ..opts.clone()
+                    },
+                ),
+            ];
+            for (key, label, o) in variants {
+                let v = place::place(&design, &o, |_| true)?;
+                let vr = v.report.wirelength_mm / opt;
+                say(format!(
+                    "grid {n}x{n} {label} ({}, effort {effort}): ratio {vr:.4}, legal {}, {:.2} s, {} moves",
+                    schedule.name(),
+                    v.report.legal,
+                    v.report.seconds,
+                    v.report.moves
+                ));
+                out.insert(format!("grid{n}_{key}_ratio"), json!(vr));
+                out.insert(format!("grid{n}_{key}_seconds"), json!(v.report.seconds));
+                out.insert(format!("grid{n}_{key}_legal"), json!(v.report.legal));
+            }
             let descent = AnnealOptions {
                 schedule: Schedule::Descent,
                 max_moves: Some(r.moves),
