@@ -298,6 +298,20 @@ impl Pen for FastPen<'_> {
 mod tests {
     use super::*;
 
+    /// A pen on `p` at one pixel per millimetre, board (0, 0) at the bottom-left pixel.
+    fn pen_on(p: &mut Pixmap) -> FastPen<'_> {
+        let (w, h) = (f64::from(p.width()), f64::from(p.height()));
+        FastPen {
+            skia: SkiaPen {
+                pixmap: p,
+                bounds: Rect::bounding([Point::new(0.0, 0.0), Point::new(w, h)]).unwrap(),
+                scale: 1.0,
+                ppp: 1.0,
+            },
+            labels: Vec::new(),
+        }
+    }
+
     fn pixel(p: &Pixmap, x: u32, y: u32) -> [u8; 4] {
         let c = p.pixel(x, y).unwrap();
         [c.red(), c.green(), c.blue(), c.alpha()]
@@ -306,15 +320,7 @@ mod tests {
     #[test]
     fn boxes_cover_the_pixels_whose_centres_they_hold() {
         let mut p = Pixmap::new(10, 10).unwrap();
-        let mut pen = FastPen {
-            skia: SkiaPen {
-                pixmap: &mut p,
-                bounds: Rect::bounding([Point::new(0.0, 0.0), Point::new(10.0, 10.0)]).unwrap(),
-                scale: 1.0,
-                ppp: 1.0,
-            },
-            labels: Vec::new(),
-        };
+        let mut pen = pen_on(&mut p);
         // x 2.4..5.6 holds the centres 2.5, 3.5, 4.5, 5.5; board y 7..9 is pixel rows
         // 1..3 (y down), centres 1.5 and 2.5.
         let r = Rect::bounding([Point::new(2.4, 7.0), Point::new(5.6, 9.0)]).unwrap();
@@ -394,15 +400,7 @@ mod tests {
     #[test]
     fn a_line_and_a_dot_fill_what_they_cover() {
         let mut p = Pixmap::new(20, 20).unwrap();
-        let mut pen = FastPen {
-            skia: SkiaPen {
-                pixmap: &mut p,
-                bounds: Rect::bounding([Point::new(0.0, 0.0), Point::new(20.0, 20.0)]).unwrap(),
-                scale: 1.0,
-                ppp: 1.0,
-            },
-            labels: Vec::new(),
-        };
+        let mut pen = pen_on(&mut p);
         // A diagonal 2 px wide, from pixel (2, 18) to (18, 2) in board terms (y up):
         // pixels along x = y (screen) are filled, far corners are not.
         pen.line(
