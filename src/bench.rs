@@ -114,39 +114,39 @@ pub fn run(args: &BenchArgs) -> Result<ExitCode> {
         let r = &placed.report;
         let ratio = r.wirelength_mm / opt;
         say(format!(
-            "grid {n}x{n} ({}, effort {effort}): wirelength {:.2} mm, optimum {opt:.2} mm, ratio {ratio:.4}, legal {}, {:.2} s, {} moves",
+            "grid {n}x{n} ({}, effort {effort}): wirelength {:.2} mm, optimum {opt:.2} mm, ratio {ratio:.4}, legal {}, {:.2} s, {} moves, kept the {} start",
             schedule.name(),
             r.wirelength_mm,
             r.legal,
             r.seconds,
-            r.moves
+            r.moves,
+            r.start
         ));
+        out.insert(format!("grid{n}_start"), json!(r.start));
         out.insert(format!("grid{n}_ratio"), json!(ratio));
         out.insert(format!("grid{n}_seconds"), json!(r.seconds));
         out.insert(format!("grid{n}_legal"), json!(r.legal));
         out.insert(format!("grid{n}_schedule"), json!(schedule.name()));
         if Some(n) == last {
-            // The same instance, clusters first (`--multilevel`) and from the analytical
-            // start (`--start spectral`).
+            // The same instance from each start alone (the default keeps the better of
+            // the first and the third), and clusters first (`--multilevel`).
             let variants = [
-                (
-                    "multilevel",
-                    "multilevel",
-                    AnnealOptions {
-                        multilevel: true,
-                        ..opts.clone()
-                    },
-                ),
+                ("given", "from the given start", Start::Given, false),
                 (
                     "spectral",
-                    "spectral start",
-                    AnnealOptions {
-                        start: Start::Spectral,
-                        ..opts.clone()
-                    },
+                    "from the spectral start",
+                    Start::Spectral,
+                    false,
                 ),
+                ("multilevel", "multilevel", Start::Given, true),
             ];
-            for (key, label, o) in variants {
+            let mut given = None;
+            for (key, label, start, multilevel) in variants {
+                let o = AnnealOptions {
+                    start,
+                    multilevel,
+                    ..opts.clone()
+                };
                 let v = place::place(&design, &o, |_| true)?;
                 let vr = v.report.wirelength_mm / opt;
                 say(format!(
@@ -159,18 +159,25 @@ pub fn run(args: &BenchArgs) -> Result<ExitCode> {
                 out.insert(format!("grid{n}_{key}_ratio"), json!(vr));
                 out.insert(format!("grid{n}_{key}_seconds"), json!(v.report.seconds));
                 out.insert(format!("grid{n}_{key}_legal"), json!(v.report.legal));
+                if key == "given" {
+                    given = Some(v.report);
+                }
             }
+            // Annealing against descent from the same start (the given scatter) on the
+            // same budget.
+            let r = given.expect("the given variant ran");
             let descent = AnnealOptions {
                 schedule: Schedule::Descent,
                 max_moves: Some(r.moves),
                 // The whole budget: no early stop when frozen.
                 frozen_stages: u32::MAX,
+                start: Start::Given,
                 ..opts
             };
             let d = place::place(&design, &descent, |_| true)?;
             let q = r.wirelength_mm / d.report.wirelength_mm;
             say(format!(
-                "grid {n}x{n}, same budget ({} moves): descent wirelength {:.2} mm (ratio {:.3}); annealing/descent {q:.3}",
+                "grid {n}x{n}, given start, same budget ({} moves): descent wirelength {:.2} mm (ratio {:.3}); annealing/descent {q:.3}",
                 r.moves,
                 d.report.wirelength_mm,
                 d.report.wirelength_mm / opt

@@ -78,9 +78,10 @@ struct PlaceArgs {
     #[arg(long)]
     multilevel: bool,
     /// Where the parts start: given (the file's positions, random spots for unplaced
-    /// parts) or spectral (an analytical placement, then a cool anneal; overrides
-    /// --scatter and --multilevel).
-    #[arg(long, default_value = "given", value_parser = parse_start)]
+    /// parts), spectral (an analytical placement, then a cool anneal; ignores --scatter
+    /// and --multilevel) or both (one run from each, half the --moves cap each; the
+    /// better result is kept).
+    #[arg(long, default_value = "both", value_parser = parse_start)]
     start: Start,
     /// Where to write the placed board (default: NAME.placed.board.ron beside the input).
     #[arg(long)]
@@ -249,6 +250,7 @@ fn place_cmd(a: PlaceArgs) -> Result<ExitCode> {
             "moves_per_second": r.moves_per_second,
             "seed": r.seed,
             "schedule": r.schedule,
+            "start": r.start,
             "out": out.display().to_string(),
         });
         println!("{v}");
@@ -316,8 +318,8 @@ fn run_place(design: &Design, opts: &AnnealOptions, progress: bool) -> Result<Pl
 fn print_report(placed: &Placed, out: Option<&Path>) {
     let r = &placed.report;
     println!(
-        "{} schedule, seed {}: {} moves ({} accepted) in {:.2} s, {:.0} moves/s",
-        r.schedule, r.seed, r.moves, r.accepted, r.seconds, r.moves_per_second
+        "{} schedule, seed {}: {} moves ({} accepted) in {:.2} s, {:.0} moves/s; kept the run from the {} start",
+        r.schedule, r.seed, r.moves, r.accepted, r.seconds, r.moves_per_second, r.start
     );
     println!(
         "wirelength {:.2} mm, overlap {:.4} mm^2, outside {:.4} mm^2, keep-out {:.4} mm^2",

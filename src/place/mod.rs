@@ -57,6 +57,9 @@ pub struct PlaceReport {
     pub moves_per_second: f64,
     pub seed: u64,
     pub schedule: String,
+    /// Where the kept result started: `given` or `spectral` ([`Start`]).
+    #[serde(default)]
+    pub start: String,
 }
 
 /// A placed board and how it went.
@@ -91,22 +94,108 @@ fn tidy(v: f64) -> f64 {
 }
 
 /// Places every unlocked part: anneal until frozen or out of budget, then the legal
-/// finish. `observe` sees each stage and may stop the run by returning false.
+/// finish, from the start `opts.start` names. `observe` sees each stage and may stop the
+/// run by returning false.
 pub fn place(
     design: &Design,
     opts: &AnnealOptions,
     observe: impl FnMut(&StageReport) -> bool,
 ) -> Result<Placed, PlaceError> {
-    if opts.start == Start::Spectral {
-        return spectral::place(design, opts, observe);
+    match opts.start {
+        Start::Given => place_given(design, opts, observe),
+        Start::Spectral => spectral::place(design, opts, observe),
+        Start::Both => place_both(design, opts, observe),
     }
+}
+
+fn place_given(
+    design: &Design,
+    opts: &AnnealOptions,
+    observe: impl FnMut(&StageReport) -> bool,
+) -> Result<Placed, PlaceError> {
     if opts.multilevel {
-        return multilevel::place(design, opts, observe);
+        multilevel::place(design, opts, observe)
+    } else {
+        anneal_flat(design, opts, observe)
     }
+}
+
+/// One anneal of all the parts from the given start, then the legal finish.
+pub(super) fn anneal_flat(
+    design: &Design,
+    opts: &AnnealOptions,
+    observe: impl FnMut(&StageReport) -> bool,
+) -> Result<Placed, PlaceError> {
     let start = Instant::now();
     let mut an = Annealer::new(design, opts.clone())?;
     an.run(observe);
     finish(design, &mut an, start)
+}
+
+/// [`Start::Both`]: the given start with half of any move cap, then the analytical start
+/// with the rest; keeps the better. The second run's stages reach `observe` numbered on
+/// from the first's, so a progress display counts one run; when `observe` stops the
+/// first run, the second does not start. The report counts the moves, stages and time
+/// of both runs; the history holds both, one after the other.
+fn place_both(
+    design: &Design,
+    opts: &AnnealOptions,
+    mut observe: impl FnMut(&StageReport) -> bool,
+) -> Result<Placed, PlaceError> {
+    let t = Instant::now();
+    let mut stopped = false;
+    let first_opts = AnnealOptions {
+        start: Start::Given,
+        max_moves: opts.max_moves.map(|m| (m / 2).max(1)),
+        ..opts.clone()
+    };
+    let mut first = place_given(design, &first_opts, |s| {
+        let go = observe(s);
+        stopped |= !go;
+        go
+    })?;
+    let rest = opts.max_moves.map(|m| m.saturating_sub(first.report.moves));
+    if stopped || rest == Some(0) {
+        return Ok(first);
+    }
+    let (moves, stages) = (first.report.moves, first.report.stages);
+    let second_opts = AnnealOptions {
+        start: Start::Spectral,
+        max_moves: rest,
+        ..opts.clone()
+    };
+    let mut second = spectral::place(design, &second_opts, |s| {
+        observe(&StageReport {
+            stage: s.stage + stages,
+            moves: s.moves + moves,
+            ..*s
+        })
+    })?;
+    let mut history = std::mem::take(&mut first.history);
+    history.extend(second.history.drain(..).map(|s| StageReport {
+        stage: s.stage + stages,
+        moves: s.moves + moves,
+        ..s
+    }));
+    let better = |a: &PlaceReport, b: &PlaceReport| {
+        (b.legal && !a.legal) || (b.legal == a.legal && b.energy < a.energy)
+    };
+    let (mut kept, other) = if better(&first.report, &second.report) {
+        (second, first)
+    } else {
+        (first, second)
+    };
+    let (r, o) = (&mut kept.report, &other.report);
+    r.moves += o.moves;
+    r.accepted += o.accepted;
+    r.stages += o.stages;
+    r.seconds = t.elapsed().as_secs_f64();
+    r.moves_per_second = r.moves as f64 / r.seconds.max(1e-9);
+    if let Some(record) = &mut kept.board.placement {
+        record.moves = r.moves;
+    }
+    kept.history = history;
+    Ok(kept)
 }
 
 /// The legal finish and the report, for a run driven step by step.
@@ -141,6 +230,8 @@ pub fn finish(design: &Design, an: &mut Annealer, start: Instant) -> Result<Plac
         moves_per_second: an.moves() as f64 / seconds.max(1e-9),
         seed: an.options().seed,
         schedule: an.options().schedule.name().to_string(),
+        // A caller that started elsewhere (the analytical start) says so.
+        start: Start::Given.name().to_string(),
     };
     board.placement = Some(PlacementRecord {
         seed: report.seed,

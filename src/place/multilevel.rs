@@ -84,14 +84,7 @@ pub fn place(
         axis_x = !axis_x;
     }
     if levels.is_empty() {
-        return super::place(
-            design,
-            &AnnealOptions {
-                multilevel: false,
-                ..opts.clone()
-            },
-            observe,
-        );
+        return super::anneal_flat(design, opts, observe);
     }
 
     // Share a move cap among the levels by their stage sizes (N^(4/3)).

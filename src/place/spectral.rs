@@ -788,5 +788,7 @@ pub fn place(
     };
     let mut an = Annealer::new(&d, cool)?;
     an.run(observe);
-    finish(design, &mut an, start)
+    let mut placed = finish(design, &mut an, start)?;
+    placed.report.start = Start::Spectral.name().to_string();
+    Ok(placed)
 }
