@@ -158,25 +158,21 @@ fn place_both(
     if stopped || rest == Some(0) {
         return Ok(first);
     }
+    // The second run's stages, numbered on from the first's.
     let (moves, stages) = (first.report.moves, first.report.stages);
+    let shift = |s: &StageReport| StageReport {
+        stage: s.stage + stages,
+        moves: s.moves + moves,
+        ..*s
+    };
     let second_opts = AnnealOptions {
         start: Start::Spectral,
         max_moves: rest,
         ..opts.clone()
     };
-    let mut second = spectral::place(design, &second_opts, |s| {
-        observe(&StageReport {
-            stage: s.stage + stages,
-            moves: s.moves + moves,
-            ..*s
-        })
-    })?;
+    let second = spectral::place(design, &second_opts, |s| observe(&shift(s)))?;
     let mut history = std::mem::take(&mut first.history);
-    history.extend(second.history.drain(..).map(|s| StageReport {
-        stage: s.stage + stages,
-        moves: s.moves + moves,
-        ..s
-    }));
+    history.extend(second.history.iter().map(shift));
     let better = |a: &PlaceReport, b: &PlaceReport| {
         (b.legal && !a.legal) || (b.legal == a.legal && b.energy < a.energy)
     };

@@ -1861,8 +1861,8 @@ fn legal_finish_reports_a_board_that_cannot_be_legal() {
 
 /// The annealer runs from the scatter (`Start::Given`) until it freezes (about 80,000 to
 /// 105,000 moves on this 8 x 8 grid); the descent then gets exactly as many moves from
-/// the same start. Measured for seeds
-/// 1..8: annealing 112 to 168 mm, descent 194 to 228 mm (optimum 112). Note: a geometric
+/// the same start. Measured for seeds 1..8: annealing 112 to 168 mm, descent 194 to
+/// 228 mm (optimum 112). Note: a geometric
 /// schedule cut short by `max_moves` is not the comparison to make; it stops while still
 /// hot (at 50,000 moves it ended at 277 to 366 mm, worse than descent).
 #[test]
