@@ -8,9 +8,9 @@ fn main() {
         schedule: std::env::args()
             .nth(3)
             .map(|s| s.parse().unwrap())
-            .unwrap_or(Schedule::LamDelosme { target: 0.44 }),
+            .unwrap_or(Schedule::LamDelosme),
         max_moves: Some(moves),
-        effort: (moves as f64 / (50.0 * (n as f64).powf(4.0 / 3.0))).min(10.0),
+
         ..Default::default()
     };
     let mut a = Annealer::new(&d, o).unwrap();

@@ -1,6 +1,6 @@
 //! `lehr bench`: speed and quality of placement on generated boards, and routing of the
-//! placed sample boards. The targets and the
-//! figures measured on the reference machine are in docs/performance.md.
+//! placed sample boards. The targets and the figures measured on the reference machine
+//! are in docs/performance.md.
 
 use std::process::ExitCode;
 use std::time::Instant;
@@ -8,192 +8,357 @@ use std::time::Instant;
 use anyhow::Result;
 use serde_json::{Value, json};
 
-use lehr::model::resolve;
-use lehr::place::{self, AnnealOptions, Annealer, Schedule, Start, generate};
+use lehr::model::{Board, Design, resolve};
+use lehr::place::{
+    self, AnnealOptions, Annealer, Placed, Schedule, Start, baseline, generate, thread_count,
+};
 
 use crate::cli::BenchArgs;
 
-pub fn run(args: &BenchArgs) -> Result<ExitCode> {
-    let mut out = serde_json::Map::new();
-    let say = |s: String| {
-        if !args.json {
+/// Prints a line unless the output is JSON.
+struct Out {
+    json: bool,
+    map: serde_json::Map<String, Value>,
+}
+
+impl Out {
+    fn say(&self, s: String) {
+        if !self.json {
             println!("{s}");
         }
+    }
+
+    fn put(&mut self, k: impl Into<String>, v: Value) {
+        self.map.insert(k.into(), v);
+    }
+}
+
+pub fn run(args: &BenchArgs) -> Result<ExitCode> {
+    let mut out = Out {
+        json: args.json,
+        map: serde_json::Map::new(),
     };
+    let threads = thread_count(0);
+    out.put("threads", json!(threads));
+    speed(args, &mut out)?;
+    incremental(args, &mut out)?;
+    known_optima(args, &mut out)?;
+    against_baselines(args, &mut out)?;
+    cores(args, &mut out)?;
+    scale(args, &mut out)?;
+    route_samples(args, &mut out)?;
+    if args.json {
+        println!("{}", Value::Object(out.map));
+    }
+    Ok(ExitCode::SUCCESS)
+}
+
+fn design(b: Board) -> Result<Design> {
+    resolve(b).map_err(problems)
+}
+
+/// Moves per second on one chain and one thread: an annealing run of a fixed budget on a
+/// random board, with the adaptive schedule so the run covers the hot, middle and cold
+/// phases in proportion; with the default moves and with plain moves only (no directed
+/// moves, which cost a scan of the part's nets).
+fn speed(args: &BenchArgs, out: &mut Out) -> Result<()> {
     let budget: u64 = if args.quick { 300_000 } else { 6_000_000 };
-
-    // Moves per second: an annealing run of a fixed budget on a random board, with the
-    // adaptive schedule so the run covers the hot, middle and cold phases in proportion.
     for n in [100u32, 1000, 10_000] {
-        let design = resolve(generate::random_board(n, 7)).map_err(problems)?;
-        let nf = f64::from(n);
-        let opts = AnnealOptions {
-            seed: 1,
-            schedule: Schedule::LamDelosme { target: 0.44 },
-            max_moves: Some(budget),
-            // At least 50 stages within the budget.
-            effort: (budget as f64 / (50.0 * nf.powf(4.0 / 3.0))).min(10.0),
-            ..AnnealOptions::default()
-        };
-        let mut an = Annealer::new(&design, opts)?;
-        let t = Instant::now();
-        an.run(|_| true);
-        let secs = t.elapsed().as_secs_f64();
-        let mps = an.moves() as f64 / secs;
-        say(format!(
-            "random board, {n:>5} parts: {:>10.0} moves/s ({} moves, {:.2} s, {:.0}% accepted)",
-            mps,
-            an.moves(),
-            secs,
-            100.0 * an.accepted() as f64 / an.moves().max(1) as f64
-        ));
-        out.insert(format!("moves_per_second_{n}"), json!(mps));
-    }
-
-    // Incremental against full recomputation, at 1,000 parts, on the same proposals.
-    {
-        let design = resolve(generate::random_board(1000, 7)).map_err(problems)?;
-        let opts = AnnealOptions {
-            seed: 3,
-            ..AnnealOptions::default()
-        };
-        let mut an = Annealer::new(&design, opts.clone())?;
-        let k_inc = if args.quick { 20_000 } else { 400_000 };
-        let t = Instant::now();
-        let mut sink = 0.0;
-        for _ in 0..k_inc {
-            sink += an.probe(false);
+        let d = design(generate::random_board(n, 7))?;
+        for (key, directed) in [("", 0.3), ("_plain", 0.0)] {
+            let opts = AnnealOptions {
+                seed: 1,
+                schedule: Schedule::LamDelosme,
+                max_moves: Some(budget),
+                directed_fraction: directed,
+                ..AnnealOptions::default()
+            };
+            let mut an = Annealer::new(&d, opts)?;
+            let t = Instant::now();
+            an.run(|_| true);
+            let secs = t.elapsed().as_secs_f64();
+            let mps = an.moves() as f64 / secs;
+            out.say(format!(
+                "random board, {n:>5} parts{}: {mps:>10.0} moves/s ({} moves, {secs:.2} s, {:.0}% accepted)",
+                if key.is_empty() { "" } else { ", plain moves" },
+                an.moves(),
+                100.0 * an.accepted() as f64 / an.moves().max(1) as f64
+            ));
+            out.put(format!("moves_per_second_{n}{key}"), json!(mps));
         }
-        let inc = t.elapsed().as_secs_f64() / f64::from(k_inc);
-        let mut an = Annealer::new(&design, opts)?;
-        let k_full = if args.quick { 200 } else { 2_000 };
-        let t = Instant::now();
-        for _ in 0..k_full {
-            sink += an.probe(true);
-        }
-        let full = t.elapsed().as_secs_f64() / f64::from(k_full);
-        std::hint::black_box(sink);
-        let ratio = full / inc;
-        say(format!(
-            "1000 parts: incremental move {:.0} ns, full recomputation {:.0} ns: {ratio:.0} times faster",
-            inc * 1e9,
-            full * 1e9
-        ));
-        out.insert("incremental_move_ns_1000".into(), json!(inc * 1e9));
-        out.insert("full_recompute_ns_1000".into(), json!(full * 1e9));
-        out.insert("incremental_speedup_1000".into(), json!(ratio));
     }
+    Ok(())
+}
 
-    // Grid instances with a known optimum; annealing against descent on the same budget.
-    // N = 10 with Lundy-Mees (long enough near the ordering temperature for sheared rows
-    // to straighten); N = 30 with the default geometric schedule at effort 10, which
-    // fits the time target (see docs/performance.md for both schedules at both sizes).
-    let runs: Vec<(u32, Schedule, f64)> = if args.quick {
+/// Incremental against full recomputation, at 1,000 parts, on the same proposals.
+fn incremental(args: &BenchArgs, out: &mut Out) -> Result<()> {
+    let d = design(generate::random_board(1000, 7))?;
+    let opts = AnnealOptions {
+        seed: 3,
+        max_moves: Some(1_000_000),
+        ..AnnealOptions::default()
+    };
+    let mut an = Annealer::new(&d, opts.clone())?;
+    let k_inc = if args.quick { 20_000 } else { 400_000 };
+    let t = Instant::now();
+    let mut sink = 0.0;
+    for _ in 0..k_inc {
+        sink += an.probe(false);
+    }
+    let inc = t.elapsed().as_secs_f64() / f64::from(k_inc);
+    let mut an = Annealer::new(&d, opts)?;
+    let k_full = if args.quick { 200 } else { 2_000 };
+    let t = Instant::now();
+    for _ in 0..k_full {
+        sink += an.probe(true);
+    }
+    let full = t.elapsed().as_secs_f64() / f64::from(k_full);
+    std::hint::black_box(sink);
+    let ratio = full / inc;
+    out.say(format!(
+        "1000 parts: incremental move {:.0} ns, full recomputation {:.0} ns: {ratio:.0} times faster",
+        inc * 1e9,
+        full * 1e9
+    ));
+    out.put("incremental_move_ns_1000", json!(inc * 1e9));
+    out.put("full_recompute_ns_1000", json!(full * 1e9));
+    out.put("incremental_speedup_1000", json!(ratio));
+    Ok(())
+}
+
+/// A board's known optimum, from its record.
+fn optimum(b: &Board) -> f64 {
+    b.optimum.as_ref().map_or(f64::NAN, |o| o.wirelength_mm)
+}
+
+/// The median of a few values.
+fn median(mut v: Vec<f64>) -> f64 {
+    v.sort_by(f64::total_cmp);
+    v.get(v.len() / 2).copied().unwrap_or(f64::NAN)
+}
+
+/// Default `lehr place` on boards with a known optimum: the multi-pin boards (filled,
+/// and with half as much room again) and grids from square to four times as long as
+/// wide. Each board is generated with seed s and placed with seed s, s = 1, 2, 3 (one
+/// seed with `--quick`, on smaller boards).
+fn known_optima(args: &BenchArgs, out: &mut Out) -> Result<()> {
+    let seeds: &[u64] = if args.quick { &[1] } else { &[1, 2, 3] };
+    let peko = |rows, cols, slack, s| {
+        generate::peko_board(&generate::PekoSpec {
+            slack,
+            ..generate::PekoSpec::new(rows, cols, s)
+        })
+    };
+    type Make = Box<dyn Fn(u64) -> Board>;
+    let boards: Vec<(&str, Make)> = if args.quick {
         vec![
-            (6, Schedule::LundyMees { beta: 0.05 }, 4.0),
-            (10, Schedule::default(), 2.0),
+            ("peko144", Box::new(move |s| peko(12, 12, 1.0, s))),
+            (
+                "grid_aspect4",
+                Box::new(|s| generate::grid_rect_board(5, 20, 2.54, 1.0, s)),
+            ),
         ]
     } else {
         vec![
-            (10, Schedule::LundyMees { beta: 0.05 }, 10.0),
-            (30, Schedule::default(), 10.0),
+            ("peko625", Box::new(move |s| peko(25, 25, 1.0, s))),
+            ("peko144", Box::new(move |s| peko(12, 12, 1.0, s))),
+            ("peko625_slack", Box::new(move |s| peko(25, 25, 1.5, s))),
+            (
+                "grid_aspect1",
+                Box::new(|s| generate::grid_rect_board(30, 30, 2.54, 1.0, s)),
+            ),
+            (
+                "grid_aspect2",
+                Box::new(|s| generate::grid_rect_board(20, 45, 2.54, 1.0, s)),
+            ),
+            (
+                "grid_aspect4",
+                Box::new(|s| generate::grid_rect_board(15, 60, 2.54, 1.0, s)),
+            ),
         ]
     };
-    let last = runs.last().map(|r| r.0);
-    for (n, schedule, effort) in runs {
-        let pitch = 2.54;
-        let design = resolve(generate::grid_board(n, pitch, 11)).map_err(problems)?;
-        let opt = generate::grid_optimum(n, pitch);
-        let opts = AnnealOptions {
-            seed: 1,
-            schedule,
-            effort,
-            ..AnnealOptions::default()
-        };
-        let placed = place::place(&design, &opts, |_| true)?;
-        let r = &placed.report;
-        let ratio = r.wirelength_mm / opt;
-        say(format!(
-            "grid {n}x{n} ({}, effort {effort}): wirelength {:.2} mm, optimum {opt:.2} mm, ratio {ratio:.4}, legal {}, {:.2} s, {} moves, kept the {} start",
-            schedule.name(),
-            r.wirelength_mm,
-            r.legal,
-            r.seconds,
-            r.moves,
-            r.start
-        ));
-        out.insert(format!("grid{n}_start"), json!(r.start));
-        out.insert(format!("grid{n}_ratio"), json!(ratio));
-        out.insert(format!("grid{n}_seconds"), json!(r.seconds));
-        out.insert(format!("grid{n}_legal"), json!(r.legal));
-        out.insert(format!("grid{n}_schedule"), json!(schedule.name()));
-        if Some(n) == last {
-            // The same instance from each start alone (the default keeps the better of
-            // the first and the third), and clusters first (`--multilevel`).
-            let variants = [
-                ("given", "from the given start", Start::Given, false),
-                (
-                    "spectral",
-                    "from the spectral start",
-                    Start::Spectral,
-                    false,
-                ),
-                ("multilevel", "multilevel", Start::Given, true),
-            ];
-            let mut given = None;
-            for (key, label, start, multilevel) in variants {
-                let o = AnnealOptions {
-                    start,
-                    multilevel,
-                    ..opts.clone()
-                };
-                let v = place::place(&design, &o, |_| true)?;
-                let vr = v.report.wirelength_mm / opt;
-                say(format!(
-                    "grid {n}x{n} {label} ({}, effort {effort}): ratio {vr:.4}, legal {}, {:.2} s, {} moves",
-                    schedule.name(),
-                    v.report.legal,
-                    v.report.seconds,
-                    v.report.moves
-                ));
-                out.insert(format!("grid{n}_{key}_ratio"), json!(vr));
-                out.insert(format!("grid{n}_{key}_seconds"), json!(v.report.seconds));
-                out.insert(format!("grid{n}_{key}_legal"), json!(v.report.legal));
-                if key == "given" {
-                    given = Some(v.report);
-                }
-            }
-            // Annealing against descent from the same start (the given scatter) on the
-            // same budget.
-            let r = given.expect("the given variant ran");
-            let descent = AnnealOptions {
-                schedule: Schedule::Descent,
-                max_moves: Some(r.moves),
-                // The whole budget: no early stop when frozen.
-                frozen_stages: u32::MAX,
-                start: Start::Given,
-                ..opts
-            };
-            let d = place::place(&design, &descent, |_| true)?;
-            let q = r.wirelength_mm / d.report.wirelength_mm;
-            say(format!(
-                "grid {n}x{n}, given start, same budget ({} moves): descent wirelength {:.2} mm (ratio {:.3}); annealing/descent {q:.3}",
-                r.moves,
-                d.report.wirelength_mm,
-                d.report.wirelength_mm / opt
+    for (name, make) in boards {
+        let (mut ratios, mut secs) = (Vec::new(), Vec::new());
+        let mut legal = true;
+        for &s in seeds {
+            let b = make(s);
+            let opt = optimum(&b);
+            let d = design(b)?;
+            let p = place::place(
+                &d,
+                &AnnealOptions {
+                    seed: s,
+                    ..AnnealOptions::default()
+                },
+                |_| true,
+            )?;
+            let r = p.report.wirelength_mm / opt;
+            out.say(format!(
+                "{name}, seed {s}: {:.1} mm, optimum {opt:.1} mm, ratio {r:.4}, legal {}, {:.1} s, {} moves, kept the {} start",
+                p.report.wirelength_mm, p.report.legal, p.report.seconds, p.report.moves, p.report.start
             ));
-            out.insert(
-                format!("descent_grid{n}_ratio"),
-                json!(d.report.wirelength_mm / opt),
-            );
-            out.insert(format!("anneal_over_descent_grid{n}"), json!(q));
+            ratios.push(r);
+            secs.push(p.report.seconds);
+            legal &= p.report.legal;
+        }
+        let worst = ratios.iter().copied().fold(0.0, f64::max);
+        out.put(format!("{name}_ratio"), json!(median(ratios.clone())));
+        out.put(format!("{name}_ratio_worst"), json!(worst));
+        out.put(format!("{name}_seconds"), json!(median(secs.clone())));
+        out.put(
+            format!("{name}_seconds_worst"),
+            json!(secs.iter().copied().fold(0.0, f64::max)),
+        );
+        out.put(format!("{name}_legal"), json!(legal));
+    }
+    Ok(())
+}
+
+/// Annealing against descent (same start, the given scatter, and the same budget), and
+/// against a plain slot-swap annealer ([`baseline::plain_swap`], same start, same number
+/// of moves), on the filled 625-part multi-pin board of seed 1.
+fn against_baselines(args: &BenchArgs, out: &mut Out) -> Result<()> {
+    let (rows, budget) = if args.quick {
+        (12, 2_000_000)
+    } else {
+        (25, 40_000_000)
+    };
+    let b = generate::peko_board(&generate::PekoSpec::new(rows, rows, 1));
+    let opt = optimum(&b);
+    let d = design(b)?;
+    let key = if args.quick { "peko144" } else { "peko625" };
+    let given = AnnealOptions {
+        seed: 1,
+        start: Start::Given,
+        max_moves: Some(budget),
+        replicas: 1,
+        ..AnnealOptions::default()
+    };
+    let anneal = place::place(&d, &given, |_| true)?;
+    let descent = place::place(
+        &d,
+        &AnnealOptions {
+            schedule: Schedule::Descent,
+            ..given.clone()
+        },
+        |_| true,
+    )?;
+    let q = anneal.report.wirelength_mm / descent.report.wirelength_mm;
+    out.say(format!(
+        "{key}, given start, {budget} moves each: annealing ratio {:.4}, descent ratio {:.4}; annealing/descent {q:.3}",
+        anneal.report.wirelength_mm / opt,
+        descent.report.wirelength_mm / opt
+    ));
+    out.put(format!("{key}_anneal_over_descent"), json!(q));
+    out.put(
+        format!("{key}_descent_ratio"),
+        json!(descent.report.wirelength_mm / opt),
+    );
+    let t = Instant::now();
+    let plain = baseline::plain_swap(&d, 1, anneal.report.moves)
+        .ok_or_else(|| anyhow::anyhow!("the plain annealer has nothing to move"))?;
+    let plain_secs = t.elapsed().as_secs_f64();
+    // Compared before the legal finish (the plain annealer has none; on a full board of
+    // equal parts every swap is legal).
+    let ours = anneal.report.annealed_wirelength_mm;
+    let over = ours / plain.wirelength_mm;
+    out.say(format!(
+        "{key}, given start, {} moves each: lehr's annealer {:.4}, plain slot-swap annealer {:.4} ({plain_secs:.1} s); lehr/plain {over:.3}",
+        anneal.report.moves,
+        ours / opt,
+        plain.wirelength_mm / opt
+    ));
+    out.put(format!("{key}_over_plain_swap"), json!(over));
+    out.put(
+        format!("{key}_plain_swap_ratio"),
+        json!(plain.wirelength_mm / opt),
+    );
+    Ok(())
+}
+
+/// The same run (multi-pin board, both starts, the default chains, a fixed budget) on one
+/// thread, two, and all cores: the time each takes and that the result is the same.
+fn cores(args: &BenchArgs, out: &mut Out) -> Result<()> {
+    let (rows, budget) = if args.quick {
+        (12, 2_000_000)
+    } else {
+        (25, 40_000_000)
+    };
+    let d = design(generate::peko_board(&generate::PekoSpec::new(
+        rows, rows, 4,
+    )))?;
+    let all = thread_count(0);
+    let mut counts = vec![1usize, 2, all];
+    counts.dedup();
+    let mut first: Option<(f64, Placed)> = None;
+    for &t in &counts {
+        let p = place::place(
+            &d,
+            &AnnealOptions {
+                seed: 4,
+                max_moves: Some(budget),
+                threads: t,
+                ..AnnealOptions::default()
+            },
+            |_| true,
+        )?;
+        let secs = p.report.seconds;
+        let (speedup, same) = match &first {
+            Some((s1, p1)) => (s1 / secs, p1.board == p.board),
+            None => (1.0, true),
+        };
+        out.say(format!(
+            "{budget} moves on {t} thread(s): {secs:.2} s, speed-up {speedup:.2}, same placement as one thread: {same}"
+        ));
+        if !same {
+            anyhow::bail!("the placement on {t} threads differs from one thread's");
+        }
+        out.put(format!("seconds_threads_{t}"), json!(secs));
+        if t == all {
+            out.put("speedup_all_cores", json!(speedup));
+        }
+        if t == 2 {
+            out.put("speedup_2_cores", json!(speedup));
+        }
+        if first.is_none() {
+            first = Some((secs, p));
         }
     }
-    route_samples(args, &mut out)?;
-    if args.json {
-        println!("{}", Value::Object(out));
+    Ok(())
+}
+
+/// Large boards: 2,000 parts with a budget of 100,000 moves (the legal finish does most
+/// of the work), and 10,000 parts at the default settings.
+fn scale(args: &BenchArgs, out: &mut Out) -> Result<()> {
+    let d = design(generate::random_board(2000, 5))?;
+    let p = place::place(
+        &d,
+        &AnnealOptions {
+            max_moves: Some(100_000),
+            ..AnnealOptions::default()
+        },
+        |_| true,
+    )?;
+    out.say(format!(
+        "2000 parts, 100,000 moves: {:.2} s, legal {}, {} conflicts",
+        p.report.seconds,
+        p.report.legal,
+        p.report.conflicts.len()
+    ));
+    out.put("place2000_capped_seconds", json!(p.report.seconds));
+    out.put("place2000_capped_legal", json!(p.report.legal));
+    if args.quick {
+        return Ok(());
     }
-    Ok(ExitCode::SUCCESS)
+    let d = design(generate::random_board(10_000, 5))?;
+    let p = place::place(&d, &AnnealOptions::default(), |_| true)?;
+    out.say(format!(
+        "10000 parts, default settings: {:.1} s, {} moves, legal {}, {:.0} mm",
+        p.report.seconds, p.report.moves, p.report.legal, p.report.wirelength_mm
+    ));
+    out.put("place10000_seconds", json!(p.report.seconds));
+    out.put("place10000_legal", json!(p.report.legal));
+    Ok(())
 }
 
 /// The sample boards, built in so the bench runs from any directory.
@@ -216,11 +381,13 @@ const ROUTE_SAMPLES: [(&str, &str); 4] = [
     ),
 ];
 
-/// Routing: each sample board placed by `lehr place` (default schedule, seeds 1 to 3; seed
+/// Routing: each sample board placed by `lehr place` (default settings, seeds 1 to 3; seed
 /// 1 only with `--quick`), then routed with the default options and checked. Per board:
 /// `route_<board>_seconds` (the slowest seed), `route_<board>_routed_fraction` (the worst
-/// seed), `route_<board>_violations` (the most, every kind) and `route_<board>_seeds`.
-fn route_samples(args: &BenchArgs, out: &mut serde_json::Map<String, Value>) -> Result<()> {
+/// seed), `route_<board>_violations` (the most, every kind), `route_<board>_seeds`, and
+/// the placement's wirelength and time (`place_<board>_mm`, `place_<board>_seconds`,
+/// seed 1).
+fn route_samples(args: &BenchArgs, out: &mut Out) -> Result<()> {
     use std::sync::atomic::AtomicBool;
     let seeds: &[u64] = if args.quick { &[1] } else { &[1, 2, 3] };
     for (name, source) in ROUTE_SAMPLES {
@@ -232,6 +399,16 @@ fn route_samples(args: &BenchArgs, out: &mut serde_json::Map<String, Value>) -> 
                 ..AnnealOptions::default()
             };
             let placed = place::place(&design, &opts, |_| true)?;
+            if seed == 1 {
+                out.put(
+                    format!("place_{name}_mm"),
+                    json!(placed.report.wirelength_mm),
+                );
+                out.put(
+                    format!("place_{name}_seconds"),
+                    json!(placed.report.seconds),
+                );
+            }
             let placed = resolve(placed.board).map_err(problems)?;
             let cancel = AtomicBool::new(false);
             let r = lehr::route::route(
@@ -259,13 +436,13 @@ fn route_samples(args: &BenchArgs, out: &mut serde_json::Map<String, Value>) -> 
             worst_fraction = worst_fraction.min(fraction);
             most_violations = most_violations.max(violations);
         }
-        out.insert(format!("route_{name}_seconds"), json!(worst_seconds));
-        out.insert(
+        out.put(format!("route_{name}_seconds"), json!(worst_seconds));
+        out.put(
             format!("route_{name}_routed_fraction"),
             json!(worst_fraction),
         );
-        out.insert(format!("route_{name}_violations"), json!(most_violations));
-        out.insert(format!("route_{name}_seeds"), json!(seeds));
+        out.put(format!("route_{name}_violations"), json!(most_violations));
+        out.put(format!("route_{name}_seeds"), json!(seeds));
     }
     Ok(())
 }

@@ -57,30 +57,47 @@ enum Command {
 struct PlaceArgs {
     /// The board file (RON, see docs/board-format.md).
     board: PathBuf,
-    /// Seed of the random generator; the same seed gives the same placement.
+    /// Seed of the random generator; the same seed (and --replicas) gives the same
+    /// placement, whatever --threads.
     #[arg(long, default_value_t = 1)]
     seed: u64,
     /// Cooling schedule: geometric, lundy-mees, lam-delosme, huang or descent
-    /// (zero-temperature baseline).
+    /// (zero-temperature baseline). Each plans its cooling over the move budget.
     #[arg(long, default_value = "geometric", value_parser = parse_schedule)]
     schedule: Schedule,
-    /// Cap on the total number of moves.
+    /// The move budget: every move of the run, all starts and chains together; every
+    /// schedule plans to use it up. Default: 25,000 N^(4/3) for N movable parts (1 to
+    /// 150 million), times --effort.
     #[arg(long)]
     moves: Option<u64>,
-    /// Moves per temperature, as a multiple of N^(4/3) for N movable parts.
+    /// Multiple of the default move budget (ignored with --moves).
     #[arg(long, default_value_t = AnnealOptions::default().effort)]
     effort: f64,
+    /// Fraction of sampled uphill moves accepted at the start temperature (the
+    /// temperature is solved for from the samples).
+    #[arg(long, default_value_t = AnnealOptions::default().start_acceptance)]
+    start_acceptance: f64,
+    /// Temperature stages over the budget.
+    #[arg(long, default_value_t = AnnealOptions::default().stages)]
+    stages: u32,
+    /// Annealing chains per start, trading temperatures (replica exchange); they share
+    /// the move budget.
+    #[arg(long, default_value_t = AnnealOptions::default().replicas)]
+    replicas: u32,
+    /// Threads to run the chains on (default: one per core); never changes the result.
+    #[arg(long, default_value_t = 0)]
+    threads: usize,
     /// Ignore the file's positions of unlocked parts and start from a random spread.
     #[arg(long)]
     scatter: bool,
-    /// Place clusters of strongly connected parts first, then the parts (for large,
-    /// dense boards).
+    /// Place clusters of strongly connected parts first, then the parts (given start
+    /// only, one chain).
     #[arg(long)]
     multilevel: bool,
     /// Where the parts start: given (the file's positions, random spots for unplaced
     /// parts), spectral (an analytical placement, then a cool anneal; ignores --scatter
-    /// and --multilevel) or both (one run from each, half the --moves cap each; the
-    /// better result is kept).
+    /// and --multilevel) or both (one run from each, half the budget each, side by side
+    /// on the cores; the better result is kept).
     #[arg(long, default_value = "both", value_parser = parse_start)]
     start: Start,
     /// Where to write the placed board (default: NAME.placed.board.ron beside the input).
@@ -116,33 +133,139 @@ struct OpenArgs {
 
 #[derive(Subcommand, Debug)]
 enum GenerateCommand {
-    /// N x N square parts with a net between grid neighbours; known optimum 2N(N-1)P.
+    /// Square parts in rows and columns with a two-pin net between grid neighbours;
+    /// known optimum (R(C-1) + C(R-1)) x pitch, recorded in the board.
     Grid {
-        /// Parts per side.
-        #[arg(long)]
-        size: u32,
+        /// Rows and columns both (a square grid); or give --rows and --cols.
+        #[arg(long, conflicts_with_all = ["rows", "cols"])]
+        size: Option<u32>,
+        /// Rows of parts.
+        #[arg(long, requires = "cols")]
+        rows: Option<u32>,
+        /// Columns of parts.
+        #[arg(long, requires = "rows")]
+        cols: Option<u32>,
         /// Side of each part and grid pitch, mm.
         #[arg(long, default_value_t = 2.54)]
         pitch: f64,
+        /// Board area over the parts' area: 1 fills the board, 1.5 leaves a third free.
+        #[arg(long, default_value_t = 1.0)]
+        slack: f64,
         /// Seed for the random scatter of the parts.
         #[arg(long, default_value_t = 1)]
         seed: u64,
+        /// Where to write the board file.
         #[arg(long)]
         out: PathBuf,
+        /// Print one JSON object (parts, nets, optimum, file) instead of text.
         #[arg(long)]
         json: bool,
     },
-    /// A random board of chips and ICs with local nets (for benchmarks).
-    Random {
-        #[arg(long)]
-        parts: u32,
+    /// Square parts in a filled array joined by nets of 2 to 10 pins, each net's parts in
+    /// a smallest box of the array, so the array is an optimal placement (the
+    /// construction of Chang, Cong and Xie, 2003); the optimum is recorded in the board.
+    Peko {
+        /// Rows and columns both; or give --rows and --cols.
+        #[arg(long, conflicts_with_all = ["rows", "cols"])]
+        size: Option<u32>,
+        /// Rows of parts.
+        #[arg(long, requires = "cols")]
+        rows: Option<u32>,
+        /// Columns of parts.
+        #[arg(long, requires = "rows")]
+        cols: Option<u32>,
+        /// Side of each part and grid pitch, mm.
+        #[arg(long, default_value_t = 2.54)]
+        pitch: f64,
+        /// Nets per part.
+        #[arg(long, default_value_t = 1.0)]
+        nets_per_part: f64,
+        /// The mix of net sizes as PINS:SHARE pairs, e.g. 2:60,3:20,4:20 (shares are
+        /// relative; pins 2 to 10). Default: 2:60,3:14,4:8,5:5,6:4,7:3,8:2,9:2,10:2.
+        #[arg(long, value_parser = parse_degrees)]
+        degrees: Option<Vec<(u32, f64)>>,
+        /// Board area over the parts' area: 1 fills the board, 1.5 leaves a third free.
+        #[arg(long, default_value_t = 1.0)]
+        slack: f64,
+        /// Seed for the nets and the scatter of the parts.
         #[arg(long, default_value_t = 1)]
         seed: u64,
+        /// Where to write the board file.
         #[arg(long)]
         out: PathBuf,
+        /// Print one JSON object (parts, nets, optimum, file) instead of text.
         #[arg(long)]
         json: bool,
     },
+    /// A random board of chips and ICs with local nets (for speed benchmarks; no known
+    /// optimum).
+    Random {
+        /// Number of parts.
+        #[arg(long)]
+        parts: u32,
+        /// Seed for the parts and nets.
+        #[arg(long, default_value_t = 1)]
+        seed: u64,
+        /// Where to write the board file.
+        #[arg(long)]
+        out: PathBuf,
+        /// Print one JSON object (parts, nets, file) instead of text.
+        #[arg(long)]
+        json: bool,
+    },
+}
+
+/// `2:60,3:20` -> [(2, 60.0), (3, 20.0)].
+fn parse_degrees(s: &str) -> Result<Vec<(u32, f64)>, String> {
+    let mut out = Vec::new();
+    for item in s.split(',').map(str::trim).filter(|t| !t.is_empty()) {
+        let (k, w) = item
+            .split_once(':')
+            .ok_or_else(|| format!("{item:?} is not PINS:SHARE (e.g. 2:60)"))?;
+        let k: u32 = k
+            .trim()
+            .parse()
+            .map_err(|_| format!("{k:?} is not a whole number of pins"))?;
+        let w: f64 = w
+            .trim()
+            .parse()
+            .map_err(|_| format!("{w:?} is not a number"))?;
+        if !(2..=10).contains(&k) {
+            return Err(format!("nets of {k} pins: pins must be 2 to 10"));
+        }
+        if !(w.is_finite() && w >= 0.0) {
+            return Err(format!("share {w} of {k}-pin nets must be a number >= 0"));
+        }
+        out.push((k, w));
+    }
+    if !out.iter().any(|d| d.1 > 0.0) {
+        return Err("give at least one net size with a share above 0".into());
+    }
+    Ok(out)
+}
+
+/// Rows and columns from `--size` or `--rows` and `--cols`, within 1..=`max` each and
+/// at least two parts.
+fn rows_cols(size: Option<u32>, rows: Option<u32>, cols: Option<u32>) -> Result<(u32, u32)> {
+    let (r, c) = match (size, rows, cols) {
+        (Some(n), _, _) => (n, n),
+        (None, Some(r), Some(c)) => (r, c),
+        _ => bail!("give --size N, or --rows R and --cols C"),
+    };
+    if !(1..=1000).contains(&r) || !(1..=1000).contains(&c) || r * c < 2 || r * c > 250_000 {
+        bail!("rows and columns must be 1 to 1000 each, 2 to 250,000 parts in all; got {r} x {c}");
+    }
+    Ok((r, c))
+}
+
+fn check_pitch_slack(pitch: f64, slack: f64) -> Result<()> {
+    if !(pitch.is_finite() && (0.1..=100.0).contains(&pitch)) {
+        bail!("--pitch must be between 0.1 and 100 mm, got {pitch}");
+    }
+    if !(slack.is_finite() && (1.0..=16.0).contains(&slack)) {
+        bail!("--slack must be between 1 (a full board) and 16, got {slack}");
+    }
+    Ok(())
 }
 
 #[derive(Args, Debug)]
@@ -199,19 +322,21 @@ pub fn run() -> Result<ExitCode> {
 
 fn place_cmd(a: PlaceArgs) -> Result<ExitCode> {
     let design = lehr::io::load_board(&a.board)?;
-    if a.moves == Some(0) {
-        bail!("--moves must be at least 1");
-    }
     let opts = AnnealOptions {
         seed: a.seed,
         schedule: a.schedule,
         max_moves: a.moves,
         effort: a.effort,
+        start_acceptance: a.start_acceptance,
+        stages: a.stages,
+        replicas: a.replicas,
+        threads: a.threads,
         scatter: a.scatter,
         multilevel: a.multilevel,
         start: a.start,
         ..AnnealOptions::default()
     };
+    lehr::place::options::check_options(&opts)?;
     let out = a
         .out
         .clone()
@@ -226,6 +351,7 @@ fn place_cmd(a: PlaceArgs) -> Result<ExitCode> {
             opts.seed
         );
     }
+    let optimum = design.board.optimum.as_ref().map(|o| o.wirelength_mm);
     let placed = run_place(&design, &opts, !a.json)?;
     lehr::io::save_board(&out, &placed.board)?;
     if let Some(log) = &a.log {
@@ -251,11 +377,16 @@ fn place_cmd(a: PlaceArgs) -> Result<ExitCode> {
             "seed": r.seed,
             "schedule": r.schedule,
             "start": r.start,
+            "replicas": r.replicas,
+            "exchanges_tried": r.exchanges_tried,
+            "exchanges_taken": r.exchanges_taken,
+            "optimum_mm": optimum,
+            "ratio_to_optimum": optimum.map(|o| r.wirelength_mm / o),
             "out": out.display().to_string(),
         });
         println!("{v}");
     } else {
-        print_report(&placed, Some(&out));
+        print_report(&placed, Some(&out), optimum);
     }
     Ok(if placed.report.legal {
         ExitCode::SUCCESS
@@ -285,15 +416,14 @@ pub fn board_stem(path: &Path) -> Option<&str> {
 /// Runs a placement, with a progress line on a terminal.
 fn run_place(design: &Design, opts: &AnnealOptions, progress: bool) -> Result<Placed> {
     let bar = if progress && std::io::stderr().is_terminal() {
-        let bar = match opts.max_moves {
-            Some(m) => ProgressBar::new(m).with_style(
-                ProgressStyle::with_template("{bar:30} {percent:>3}% {elapsed} {msg}")
-                    .expect("static template"),
-            ),
-            None => ProgressBar::new_spinner().with_style(
-                ProgressStyle::with_template("{spinner} {elapsed} {msg}").expect("static template"),
-            ),
-        };
+        let movable = design.board.parts.iter().filter(|p| !p.locked).count();
+        let budget = opts
+            .max_moves
+            .unwrap_or_else(|| place::default_budget(movable, opts.effort));
+        let bar = ProgressBar::new(budget).with_style(
+            ProgressStyle::with_template("{bar:30} {percent:>3}% {elapsed} {msg}")
+                .expect("static template"),
+        );
         bar.enable_steady_tick(Duration::from_millis(120));
         bar
     } else {
@@ -315,16 +445,22 @@ fn run_place(design: &Design, opts: &AnnealOptions, progress: bool) -> Result<Pl
     Ok(placed)
 }
 
-fn print_report(placed: &Placed, out: Option<&Path>) {
+fn print_report(placed: &Placed, out: Option<&Path>, optimum: Option<f64>) {
     let r = &placed.report;
     println!(
-        "{} schedule, seed {}: {} moves ({} accepted) in {:.2} s, {:.0} moves/s; kept the run from the {} start",
-        r.schedule, r.seed, r.moves, r.accepted, r.seconds, r.moves_per_second, r.start
+        "{} schedule, seed {}, {} chain(s) per start: {} moves ({} accepted) in {:.2} s, {:.0} moves/s; kept the run from the {} start",
+        r.schedule, r.seed, r.replicas, r.moves, r.accepted, r.seconds, r.moves_per_second, r.start
     );
     println!(
         "wirelength {:.2} mm, overlap {:.4} mm^2, outside {:.4} mm^2, keep-out {:.4} mm^2",
         r.wirelength_mm, r.overlap_mm2, r.outside_mm2, r.keepout_mm2
     );
+    if let Some(o) = optimum {
+        println!(
+            "the board's known optimum is {o:.2} mm: this placement is {:.4} times it",
+            r.wirelength_mm / o
+        );
+    }
     if r.legal {
         println!("legal: every part inside the board, clear of keep-outs, no overlaps");
     } else {
@@ -339,26 +475,50 @@ fn print_report(placed: &Placed, out: Option<&Path>) {
 }
 
 fn generate_cmd(g: GenerateCommand) -> Result<ExitCode> {
-    let (board, out, json, optimum): (Board, PathBuf, bool, Option<f64>) = match g {
+    let (board, out, json): (Board, PathBuf, bool) = match g {
         GenerateCommand::Grid {
             size,
+            rows,
+            cols,
             pitch,
+            slack,
             seed,
             out,
             json,
         } => {
-            if !(2..=200).contains(&size) {
-                bail!("--size must be between 2 and 200, got {size}");
-            }
-            if !(pitch.is_finite() && (0.1..=100.0).contains(&pitch)) {
-                bail!("--pitch must be between 0.1 and 100 mm, got {pitch}");
-            }
+            let (r, c) = rows_cols(size, rows, cols)?;
+            check_pitch_slack(pitch, slack)?;
             (
-                generate::grid_board(size, pitch, seed),
+                generate::grid_rect_board(r, c, pitch, slack, seed),
                 out,
                 json,
-                Some(generate::grid_optimum(size, pitch)),
             )
+        }
+        GenerateCommand::Peko {
+            size,
+            rows,
+            cols,
+            pitch,
+            nets_per_part,
+            degrees,
+            slack,
+            seed,
+            out,
+            json,
+        } => {
+            let (r, c) = rows_cols(size, rows, cols)?;
+            check_pitch_slack(pitch, slack)?;
+            if !(nets_per_part.is_finite() && (0.1..=10.0).contains(&nets_per_part)) {
+                bail!("--nets-per-part must be between 0.1 and 10, got {nets_per_part}");
+            }
+            let spec = generate::PekoSpec {
+                pitch,
+                nets_per_part,
+                degrees: degrees.unwrap_or_else(|| generate::PekoSpec::DEFAULT_DEGREES.to_vec()),
+                slack,
+                ..generate::PekoSpec::new(r, c, seed)
+            };
+            (generate::peko_board(&spec), out, json)
         }
         GenerateCommand::Random {
             parts,
@@ -369,9 +529,10 @@ fn generate_cmd(g: GenerateCommand) -> Result<ExitCode> {
             if !(2..=100_000).contains(&parts) {
                 bail!("--parts must be between 2 and 100000, got {parts}");
             }
-            (generate::random_board(parts, seed), out, json, None)
+            (generate::random_board(parts, seed), out, json)
         }
     };
+    let optimum = board.optimum.as_ref().map(|o| o.wirelength_mm);
     lehr::io::save_board(&out, &board)?;
     if json {
         let mut v = json!({

@@ -2,7 +2,7 @@
 //! a thread.
 //!
 //! A user interface owns an [`EngineHandle`]: it sends [`Command`]s and drains [`Event`]s
-//! without ever blocking. The worker owns the placement state (an [`Annealer`]) and sends
+//! without ever blocking. The worker owns the placement state (a [`Placer`]) and sends
 //! [`Snapshot`]s at a bounded rate (about 30 per second while running), so the window can
 //! draw a 1,000-part board without slowing the annealer down. Only owned, `Send` data
 //! crosses the channel. A panic while handling a command is caught, reported as
@@ -24,7 +24,8 @@ use std::time::{Duration, Instant};
 use crate::model::board::Copper;
 use crate::model::{Board, Design, Point, Quarter};
 use crate::place::{
-    self, AnnealOptions, Annealer, Conflict, PlaceReport, Schedule, StageReport, Terms, Weights,
+    self, AnnealOptions, Conflict, PlaceReport, Placer, Schedule, StageReport, Start, Terms,
+    Weights,
 };
 use crate::route::{RouteOptions, RouteProgress, RouteResult};
 use crate::rules::Violation;
@@ -40,10 +41,10 @@ pub const ROUTE_PROGRESS_INTERVAL: Duration = Duration::from_millis(50);
 pub enum Command {
     /// Replace the board (and start over with the current options).
     Load(Box<Design>),
-    /// Run until paused, frozen or out of budget.
+    /// Run until paused or out of budget.
     Run,
     Pause,
-    /// Run one temperature stage, then pause.
+    /// Run one temperature stage (of the shown chain), then pause.
     Step,
     /// Raise the temperature to this fraction of the start temperature.
     Reheat(f64),
@@ -118,10 +119,12 @@ pub struct Snapshot {
     /// Displacement window, mm.
     pub window: f64,
     pub moves: u64,
+    /// The move budget, every start and chain together.
+    pub budget: u64,
     pub accepted: u64,
     pub stage: u32,
     pub running: bool,
-    /// Frozen or out of budget.
+    /// Out of budget.
     pub done: bool,
     /// Measured over the last second of running.
     pub moves_per_second: f64,
@@ -132,6 +135,11 @@ pub struct Snapshot {
     /// Raw HPWL, mm.
     pub wirelength_mm: f64,
     pub schedule: Option<Schedule>,
+    /// The schedule's parameter as its last step set it (alpha, beta or lambda).
+    pub schedule_parameter: f64,
+    /// The start the shown chain belongs to, and how many chains each start has.
+    pub start: Option<Start>,
+    pub replicas: u32,
     pub seed: u64,
     /// Counts fresh starts (load, reset, new options, descent, finish, recovery from a
     /// panic): a viewer clears its plots when it changes, so samples of an earlier run
@@ -273,7 +281,7 @@ impl Drop for EngineHandle {
 struct Worker {
     design: Design,
     opts: AnnealOptions,
-    an: Option<Annealer>,
+    placer: Option<Placer>,
     events: Sender<Event>,
     running: bool,
     stop_after_stage: Option<u32>,
@@ -307,7 +315,7 @@ impl Worker {
         let mut w = Worker {
             design,
             opts,
-            an: None,
+            placer: None,
             events,
             running: false,
             stop_after_stage: None,
@@ -340,10 +348,10 @@ impl Worker {
         self.copper_cleared = None;
         self.copper_version += 1;
         let c = &self.design.board.copper;
-        if let Some(a) = &self.an
+        if let Some(a) = &self.placer
             && (!c.tracks.is_empty() || !c.vias.is_empty())
         {
-            let l = a.layout();
+            let l = a.shown().layout();
             self.copper = Some(RoutedCopper {
                 copper: Arc::new(c.clone()),
                 positions: l.positions().to_vec(),
@@ -357,9 +365,9 @@ impl Worker {
         let Some(rc) = &self.copper else {
             return;
         };
-        let moved = match &self.an {
+        let moved = match &self.placer {
             Some(a) => {
-                let l = a.layout();
+                let l = a.shown().layout();
                 l.positions() != rc.positions.as_slice() || l.quarters() != rc.quarters.as_slice()
             }
             None => true,
@@ -385,10 +393,10 @@ impl Worker {
         self.samples.clear();
         self.stages_sent = 0;
         self.moves_per_second = 0.0;
-        match Annealer::new(&self.design, self.opts.clone()) {
-            Ok(a) => self.an = Some(a),
+        match Placer::new(&self.design, &self.opts) {
+            Ok(a) => self.placer = Some(a),
             Err(e) => {
-                self.an = None;
+                self.placer = None;
                 let _ = self.events.send(Event::Error(e.to_string()));
             }
         }
@@ -446,7 +454,7 @@ impl Worker {
             }
             Command::Run => {
                 self.stop_after_stage = None;
-                self.running = self.an.as_ref().is_some_and(|a| !a.is_done());
+                self.running = self.placer.as_ref().is_some_and(|a| !a.is_done());
                 self.rate_window = (Instant::now(), self.moves());
                 self.send_snapshot();
             }
@@ -455,16 +463,16 @@ impl Worker {
                 self.send_snapshot();
             }
             Command::Step => {
-                if let Some(a) = &self.an
+                if let Some(a) = &self.placer
                     && !a.is_done()
                 {
-                    self.stop_after_stage = Some(a.history().len() as u32 + 1);
+                    self.stop_after_stage = Some(a.rounds() as u32 + 1);
                     self.running = true;
                     self.rate_window = (Instant::now(), self.moves());
                 }
             }
             Command::Reheat(f) => {
-                if let Some(a) = &mut self.an {
+                if let Some(a) = &mut self.placer {
                     a.reheat(f);
                 }
                 self.send_snapshot();
@@ -476,15 +484,15 @@ impl Worker {
             }
             Command::SetSchedule(s) => {
                 self.opts.schedule = s;
-                if let Some(a) = &mut self.an {
-                    a.set_schedule(s);
+                if let Some(a) = &mut self.placer {
+                    a.chains_mut().for_each(|c| c.set_schedule(s));
                 }
                 self.send_snapshot();
             }
             Command::SetWeights(w) => {
                 self.opts.weights = Some(w);
-                if let Some(a) = &mut self.an {
-                    a.set_weights(w);
+                if let Some(a) = &mut self.placer {
+                    a.chains_mut().for_each(|c| c.set_weights(w));
                 }
                 self.send_snapshot();
             }
@@ -492,28 +500,36 @@ impl Worker {
             Command::DescentOnly => {
                 self.opts.schedule = Schedule::Descent;
                 self.restart();
-                self.running = self.an.is_some();
+                self.running = self.placer.is_some();
                 self.rate_window = (Instant::now(), 0);
             }
             Command::MovePart { part, at, quarter } => {
-                if let Some(a) = &mut self.an
-                    && (part as usize) < a.layout().part_count()
+                if let Some(a) = &mut self.placer
+                    && (part as usize) < a.shown().layout().part_count()
                     && at.is_finite()
                 {
-                    a.move_part(part, at, quarter);
+                    a.chains_mut().for_each(|c| c.move_part(part, at, quarter));
                 }
                 self.send_snapshot();
             }
             Command::Lock { part, locked } => {
                 if let Some(p) = self.design.board.parts.get_mut(part as usize) {
                     p.locked = locked;
-                    if let Some(a) = &mut self.an {
-                        // A part locked where it stands keeps that position on reset.
+                    if let Some(a) = &mut self.placer {
+                        // A part locked where it stands keeps that position on reset,
+                        // and in every chain.
+                        let l = a.shown().layout();
+                        let (at, q) = (l.position(part), l.quarter(part));
                         if locked {
-                            p.at = Some(a.layout().position(part));
-                            p.rotation = a.layout().quarter(part).degrees();
+                            p.at = Some(at);
+                            p.rotation = q.degrees();
                         }
-                        a.set_locked(part, locked);
+                        a.chains_mut().for_each(|c| {
+                            if locked {
+                                c.move_part(part, at, q);
+                            }
+                            c.set_locked(part, locked);
+                        });
                     }
                 }
                 self.send_snapshot();
@@ -537,8 +553,8 @@ impl Worker {
 
     /// The board with the parts where the annealer has them now (no copper).
     fn current_design(&self) -> Result<Design, String> {
-        let a = self.an.as_ref().ok_or("no board is loaded")?;
-        let l = a.layout();
+        let a = self.placer.as_ref().ok_or("no board is loaded")?;
+        let l = a.shown().layout();
         let mut board = place::board_at(&self.design, l.positions(), l.quarters());
         board.copper = Copper::default();
         crate::model::resolve(board).map_err(|problems| {
@@ -569,7 +585,7 @@ impl Worker {
         };
         match crate::route::route(&design, opts, &self.cancel, &mut progress) {
             Ok(result) => {
-                let l = self.an.as_ref().map(Annealer::layout);
+                let l = self.placer.as_ref().map(|p| p.shown().layout());
                 let copper = Arc::new(result.copper.clone());
                 self.copper = l.map(|l| RoutedCopper {
                     copper: copper.clone(),
@@ -605,7 +621,7 @@ impl Worker {
             design.board.copper = (*rc.copper).clone();
         }
         let violations = crate::rules::check(&design);
-        let l = self.an.as_ref().map(Annealer::layout);
+        let l = self.placer.as_ref().map(|p| p.shown().layout());
         let _ = self.events.send(Event::Checked(Box::new(Checked {
             violations,
             positions: l.map_or_else(Vec::new, |l| l.positions().to_vec()),
@@ -619,10 +635,10 @@ impl Worker {
     /// The legal finish on the current run, answered by [`Event::Finished`]. The run
     /// keeps its move count and plots; a reheat continues from the finished layout.
     fn finish_run(&mut self) {
-        let Some(a) = &mut self.an else {
+        let Some(a) = &mut self.placer else {
             return;
         };
-        match place::finish(&self.design, a, Instant::now()) {
+        match a.finish() {
             Ok(p) => {
                 let conflicts = p.report.conflicts.clone();
                 let _ = self.events.send(Event::Finished(Box::new(Finished {
@@ -638,30 +654,31 @@ impl Worker {
     }
 
     fn moves(&self) -> u64 {
-        self.an.as_ref().map_or(0, Annealer::moves)
+        self.placer.as_ref().map_or(0, Placer::moves)
     }
 
     /// One batch of moves, then a snapshot if one is due.
     fn tick(&mut self) {
-        let Some(a) = &mut self.an else {
+        let Some(a) = &mut self.placer else {
             self.running = false;
             return;
         };
         let before = (a.moves(), a.accepted());
         let mut batch = self.moves_per_tick;
         if self.stop_after_stage.is_some() {
-            batch = batch.min(a.stage_moves_left().max(1));
+            batch = batch.min(a.round_moves_left().max(1));
         }
         // Teaching speeds: a few moves per frame, paced to the snapshot rate.
         let paced = batch < 2_000;
         a.run_moves(batch);
         let (m, acc) = (a.moves() - before.0, a.accepted() - before.1);
+        let c = a.shown();
         self.samples.push(PlotPoint {
             moves: a.moves(),
-            energy: a.energy(),
-            best: a.lowest_energy(),
-            terms: a.layout().terms(),
-            temperature: a.temperature(),
+            energy: c.energy(),
+            best: c.lowest_energy(),
+            terms: c.layout().terms(),
+            temperature: c.temperature(),
             acceptance: if m > 0 { acc as f64 / m as f64 } else { 0.0 },
         });
         let just_done = a.is_done();
@@ -669,7 +686,7 @@ impl Worker {
             self.running = false;
         }
         if let Some(s) = self.stop_after_stage
-            && a.history().len() as u32 >= s
+            && a.rounds() as u32 >= s
         {
             self.running = false;
             self.stop_after_stage = None;
@@ -680,7 +697,7 @@ impl Worker {
             self.rate_window = (Instant::now(), a.moves());
         }
         if just_done {
-            // Frozen or out of budget: the legal finish follows on its own, so a run
+            // Out of budget: the legal finish follows on its own, so a run
             // ends with every part on the grid and clear of the others (or a list of
             // what could not be cleared).
             self.finish_run();
@@ -696,12 +713,12 @@ impl Worker {
     fn send_snapshot(&mut self) {
         self.validate_copper();
         self.last_snapshot = Instant::now();
-        let snap = match &self.an {
-            Some(a) => {
+        let snap = match &self.placer {
+            Some(p) => {
+                let a = p.shown();
                 let l = a.layout();
-                let hist = a.history();
-                let stages = hist[self.stages_sent.min(hist.len())..].to_vec();
-                self.stages_sent = hist.len();
+                let stages = p.history_from(self.stages_sent);
+                self.stages_sent += stages.len();
                 Snapshot {
                     positions: l.positions().to_vec(),
                     quarters: l.quarters().to_vec(),
@@ -714,17 +731,21 @@ impl Worker {
                     start_temperature: a.start_temperature(),
                     acceptance: a.acceptance(),
                     window: a.window(),
-                    moves: a.moves(),
-                    accepted: a.accepted(),
-                    stage: hist.len() as u32,
+                    moves: p.moves(),
+                    budget: p.budget(),
+                    accepted: p.accepted(),
+                    stage: self.stages_sent as u32,
                     running: self.running,
-                    done: a.is_done(),
+                    done: p.is_done(),
                     moves_per_second: self.moves_per_second,
                     samples: std::mem::take(&mut self.samples),
                     stages,
                     wirelength_mm: l.wirelength_mm(),
                     schedule: Some(a.options().schedule),
-                    seed: a.options().seed,
+                    schedule_parameter: a.schedule_parameter(),
+                    start: Some(p.shown_start()),
+                    replicas: p.options().replicas,
+                    seed: p.options().seed,
                     epoch: self.epoch,
                     conflicts: (0..l.part_count() as u32)
                         .map(|i| conflict_bits(l.part_violations(i)))

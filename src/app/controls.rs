@@ -5,7 +5,7 @@
 use serde::{Deserialize, Serialize};
 
 use lehr::engine::Snapshot;
-use lehr::place::{AnnealOptions, Schedule, Weights};
+use lehr::place::{AnnealOptions, Schedule, Start, Weights};
 
 use super::Action;
 
@@ -13,15 +13,16 @@ use super::Action;
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 #[serde(default)]
 pub struct ControlSettings {
-    /// Index into [`Schedule::NAMES`].
+    /// Index into [`Schedule::ALL`].
     pub kind: usize,
-    pub alpha: f64,
-    pub beta: f64,
-    pub target: f64,
-    pub lambda: f64,
+    /// Index into [`STARTS`].
+    pub start: usize,
+    /// Annealing chains per start (replica exchange).
+    pub replicas: u32,
     /// Moves the engine makes between two pictures.
     pub speed: u64,
     pub seed: u64,
+    /// Multiple of the default move budget.
     pub effort: f64,
     pub auto_start: bool,
     pub start_temperature: f64,
@@ -29,15 +30,19 @@ pub struct ControlSettings {
     pub reheat: f64,
 }
 
+/// The starts the window offers, in its list's order.
+pub const STARTS: [Start; 3] = [Start::Both, Start::Given, Start::Spectral];
+
 impl Default for ControlSettings {
     fn default() -> Self {
         let d = AnnealOptions::default();
         ControlSettings {
-            kind: 0,
-            alpha: 0.95,
-            beta: 0.05,
-            target: 0.44,
-            lambda: 0.7,
+            kind: Schedule::ALL
+                .iter()
+                .position(|&k| k == d.schedule)
+                .unwrap_or(0),
+            start: STARTS.iter().position(|&k| k == d.start).unwrap_or(0),
+            replicas: d.replicas,
             speed: 20_000,
             seed: d.seed,
             effort: d.effort,
@@ -50,25 +55,23 @@ impl Default for ControlSettings {
 
 impl ControlSettings {
     pub fn schedule(&self) -> Schedule {
-        match self.kind {
-            0 => Schedule::Geometric { alpha: self.alpha },
-            1 => Schedule::LundyMees { beta: self.beta },
-            2 => Schedule::LamDelosme {
-                target: self.target,
-            },
-            3 => Schedule::Huang {
-                lambda: self.lambda,
-            },
-            _ => Schedule::Descent,
-        }
+        Schedule::ALL[self.kind.min(Schedule::ALL.len() - 1)]
     }
 
-    /// The options a fresh start uses.
+    pub fn start(&self) -> Start {
+        STARTS[self.start.min(STARTS.len() - 1)]
+    }
+
+    /// The options a fresh start uses: the command line's defaults (`lehr place`) with
+    /// the settings chosen here, so the same board, seed and settings give the same
+    /// placement in both.
     pub fn options(&self, weights: Option<Weights>) -> AnnealOptions {
         AnnealOptions {
             seed: self.seed,
             schedule: self.schedule(),
             effort: self.effort,
+            start: self.start(),
+            replicas: self.replicas.clamp(1, 16),
             start_temperature: (!self.auto_start).then_some(self.start_temperature),
             weights,
             ..AnnealOptions::default()
@@ -112,7 +115,7 @@ impl Controls {
         ui.horizontal_wrapped(|ui| {
             if ui
                 .add_enabled(!running && !done, egui::Button::new("Run"))
-                .on_hover_text(format!("Anneal until frozen or paused ({KEYS_RUN})"))
+                .on_hover_text(format!("Anneal until the move budget is spent or paused ({KEYS_RUN})"))
                 .clicked()
             {
                 actions.push(Action::Run);
@@ -177,66 +180,59 @@ impl Controls {
         let before = s.schedule();
         labelled(ui, "schedule", |ui| {
             egui::ComboBox::from_id_salt("schedule-kind")
-                .selected_text(Schedule::NAMES[s.kind.min(4)])
+                .selected_text(s.schedule().name())
                 .show_ui(ui, |ui| {
-                    for (k, name) in Schedule::NAMES.iter().enumerate() {
-                        ui.selectable_value(&mut s.kind, k, *name);
+                    for (k, sch) in Schedule::ALL.iter().enumerate() {
+                        ui.selectable_value(&mut s.kind, k, sch.name());
                     }
                 })
                 .response
         });
-        let hint = match s.kind {
-            0 => {
-                labelled(ui, "cooling factor", |ui| {
-                    ui.add(
-                        egui::DragValue::new(&mut s.alpha)
-                            .range(0.5..=0.9999)
-                            .speed(0.001)
-                            .fixed_decimals(4),
-                    )
-                });
-                "T(k+1) = alpha T(k)"
-            }
-            1 => {
-                labelled(ui, "beta", |ui| {
-                    ui.add(
-                        egui::DragValue::new(&mut s.beta)
-                            .range(0.0001..=10.0)
-                            .speed(0.001),
-                    )
-                });
-                "Lundy-Mees: T(k+1) = T(k) / (1 + beta T(k)), T in units of the start temperature"
-            }
-            2 => {
-                labelled(ui, "target acceptance", |ui| {
-                    ui.add(
-                        egui::DragValue::new(&mut s.target)
-                            .range(0.05..=0.95)
-                            .speed(0.005),
-                    )
-                });
-                "Lam-Delosme: steers the temperature so the acceptance follows a target path"
-            }
-            3 => {
-                labelled(ui, "lambda", |ui| {
-                    ui.add(
-                        egui::DragValue::new(&mut s.lambda)
-                            .range(0.01..=10.0)
-                            .speed(0.01),
-                    )
-                });
-                "Huang et al.: T(k+1) = T(k) exp(-lambda T(k) / sigma(k))"
-            }
-            _ => "Zero temperature: only moves that do not raise the energy",
-        };
-        ui.small(hint);
+        ui.small(s.schedule().formula());
+        if let Some(snap) = snap
+            && snap.schedule == Some(s.schedule())
+            && !s.schedule().is_descent()
+        {
+            let name = match s.schedule() {
+                Schedule::Geometric => "alpha",
+                Schedule::LundyMees => "beta",
+                _ => "lambda",
+            };
+            ui.small(format!(
+                "{name} {} (set by the move budget, {} moves)",
+                sig(snap.schedule_parameter),
+                big(snap.budget as f64)
+            ));
+        }
         if s.schedule() != before {
             actions.push(Action::SetSchedule(s.schedule()));
         }
+        labelled(ui, "start", |ui| {
+            egui::ComboBox::from_id_salt("start-kind")
+                .selected_text(s.start().name())
+                .show_ui(ui, |ui| {
+                    for (k, st) in STARTS.iter().enumerate() {
+                        ui.selectable_value(&mut s.start, k, st.name());
+                    }
+                })
+                .response
+        })
+        .on_hover_text(
+            "given: the board's own positions; spectral: an analytical placement refined \
+             cool; both: one run from each, the better kept (applies from a fresh start)",
+        );
+        labelled(ui, "chains", |ui| {
+            ui.add(egui::DragValue::new(&mut s.replicas).range(1..=16))
+        })
+        .on_hover_text(
+            "Annealing chains per start, at slightly different temperatures, trading \
+             temperatures now and then (replica exchange); they share the move budget and \
+             run on all cores (applies from a fresh start)",
+        );
 
         ui.checkbox(&mut s.auto_start, "automatic start temperature")
             .on_hover_text(
-                "Derived from sampled uphill moves so that 80 % of them are accepted at first",
+                "Solved from sampled uphill moves so that 30 % of them are accepted at first",
             );
         ui.add_enabled_ui(!s.auto_start, |ui| {
             labelled(ui, "start temperature", |ui| {
@@ -255,10 +251,12 @@ impl Controls {
                     .speed(0.05),
             )
         })
-        .on_hover_text("Moves per temperature, as a multiple of N^(4/3) for N movable parts");
+        .on_hover_text("Multiple of the default move budget (25,000 N^(4/3) moves for N movable parts, 1 to 150 million)");
         if ui
             .button("Restart with these settings")
-            .on_hover_text("Seed, effort and start temperature apply from a fresh start")
+            .on_hover_text(
+                "Seed, effort, start, chains and start temperature apply from a fresh start",
+            )
             .clicked()
         {
             actions.push(Action::Restart);
@@ -305,7 +303,7 @@ pub fn status_ui(
         let state = if s.running {
             "running"
         } else if s.done {
-            "frozen"
+            "done"
         } else {
             "paused"
         };
@@ -317,7 +315,7 @@ pub fn status_ui(
         ui.separator();
         ui.label(format!("{} moves/s", big(s.moves_per_second)));
         ui.separator();
-        ui.label(format!("moves {}", big(s.moves as f64)));
+        ui.label(format!("moves {} of {}", big(s.moves as f64), big(s.budget as f64)));
         ui.separator();
         ui.label(format!("stage {}", s.stage));
         ui.separator();
@@ -375,14 +373,18 @@ mod tests {
     #[test]
     fn settings_make_the_chosen_schedule() {
         let mut s = ControlSettings::default();
-        assert_eq!(s.schedule(), Schedule::Geometric { alpha: 0.95 });
+        // The window's defaults are the command line's.
+        assert_eq!(s.options(None), AnnealOptions::default());
+        assert_eq!(s.schedule(), Schedule::Geometric);
         s.kind = 2;
-        assert_eq!(s.schedule(), Schedule::LamDelosme { target: 0.44 });
+        assert_eq!(s.schedule(), Schedule::LamDelosme);
         s.kind = 4;
         assert!(s.schedule().is_descent());
         s.auto_start = false;
         s.start_temperature = 3.0;
         assert_eq!(s.options(None).start_temperature, Some(3.0));
+        s.start = 2;
+        assert_eq!(s.options(None).start, Start::Spectral);
     }
 
     #[test]

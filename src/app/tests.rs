@@ -122,16 +122,18 @@ fn run_makes_moves_and_pause_stops_them() {
 }
 
 #[test]
-fn changing_the_cooling_factor_reaches_the_engine() {
+fn changing_the_schedule_reaches_the_engine() {
     let mut h = harness(grid_app());
     wait_until(&mut h, "the first snapshot arrives", |a| {
         a.snapshot().is_some()
     });
-    h.get_by_label("cooling factor").set_value_accesskit(0.9);
-    h.step();
-    assert_eq!(h.state().settings.controls.alpha, 0.9);
+    h.get_by_label("schedule").click();
+    h.run();
+    h.get_by_label("lam-delosme").click();
+    h.run();
+    assert_eq!(h.state().settings.controls.schedule(), Schedule::LamDelosme);
     wait_until(&mut h, "the engine uses the new schedule", |a| {
-        a.snapshot().and_then(|s| s.schedule) == Some(Schedule::Geometric { alpha: 0.9 })
+        a.snapshot().and_then(|s| s.schedule) == Some(Schedule::LamDelosme)
     });
 }
 

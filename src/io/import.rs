@@ -446,6 +446,7 @@ impl Netlist {
             nets,
             copper: Copper::default(),
             placement: None,
+            optimum: None,
         };
         match resolve(board) {
             Ok(design) => Ok(Imported {

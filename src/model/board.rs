@@ -32,6 +32,20 @@ pub struct Board {
     /// How the current positions were produced, written by `lehr place`.
     #[serde(default)]
     pub placement: Option<PlacementRecord>,
+    /// The shortest wiring any placement of this board can have, when it is known (the
+    /// generated benchmark boards of `lehr generate` record theirs).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub optimum: Option<KnownOptimum>,
+}
+
+/// A board's known optimal wiring: the lowest total half-perimeter wirelength (net
+/// weights applied) of any legal placement, and how it is known.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct KnownOptimum {
+    pub wirelength_mm: f64,
+    /// The construction or proof, in a few words.
+    pub how: String,
 }
 
 /// A region of the board: a rectangle or a simple polygon (vertices in order, not closed,
@@ -308,6 +322,16 @@ pub struct PlacementRecord {
     pub energy: f64,
     pub wirelength_mm: f64,
     pub legal: bool,
+    /// The start the kept result came from (`given` or `spectral`).
+    #[serde(default)]
+    pub start: String,
+    /// Annealing chains per start.
+    #[serde(default = "one_replica")]
+    pub replicas: u32,
+}
+
+fn one_replica() -> u32 {
+    1
 }
 
 /// Index of a part in [`Board::parts`] (and in every per-part table of the engine).

@@ -169,6 +169,16 @@ pub fn resolve(board: Board) -> Result<Design, Vec<Problem>> {
         );
     }
 
+    if let Some(o) = &board.optimum {
+        c.number(
+            ItemPath::root("optimum").field("wirelength_mm"),
+            "known optimal wirelength",
+            o.wirelength_mm,
+            0.0,
+            1e12,
+        );
+    }
+
     let r = &board.rules;
     let rules = ItemPath::root("rules");
     c.number(

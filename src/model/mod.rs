@@ -8,7 +8,7 @@ pub mod names;
 mod packages;
 
 pub use board::{
-    Board, Design, Layer, NetId, PartId, PinRef, Shape, Side, rect_to_board, to_board,
+    Board, Design, KnownOptimum, Layer, NetId, PartId, PinRef, Shape, Side, rect_to_board, to_board,
 };
 pub use check::{Problem, problems_line, resolve};
 pub use footprint::{Footprint, FootprintSpec, Pad, PadKind, PadShape};

@@ -399,11 +399,16 @@ pub struct Layout {
     // Scratch, reused across moves so a move allocates nothing.
     net_gen: u32,
     undo_pins: Vec<(u32, f64, f64)>,
-    undo_nets: Vec<(u32, NetBox)>,
+    /// Nets the move touched and their boxes before it (side by side: a tuple of a
+    /// `u32` and a 64-byte-aligned box is 128 bytes and was copied through the stack).
+    undo_net_ids: Vec<u32>,
+    undo_nets: Vec<NetBox>,
     pending: Vec<PartMove>,
     /// Parts of the move being evaluated (for moves of more than two parts).
     moving: Vec<bool>,
     pending_delta: Terms,
+    scratch_a: Vec<(u64, u64)>,
+    scratch_b: Vec<(u64, u64)>,
 }
 
 /// Why a layout cannot be built from a design.
@@ -458,10 +463,13 @@ impl Layout {
             hints: false,
             net_gen: 0,
             undo_pins: Vec::new(),
+            undo_net_ids: Vec::new(),
             undo_nets: Vec::new(),
             pending: Vec::new(),
             moving: vec![false; n],
             pending_delta: Terms::default(),
+            scratch_a: Vec::new(),
+            scratch_b: Vec::new(),
         };
 
         // Which net each pad is on.
@@ -748,8 +756,13 @@ impl Layout {
         let mut d = Terms::default();
 
         // Area terms: each moved part against the parts that stay, then the moved parts
-        // among themselves.
-        if moves.len() <= 2 {
+        // among themselves. Two parts of the same shape trading places (each keeping its
+        // turn) leave the set of courtyards as it was, so every area term is unchanged:
+        // exactly zero, with no search (on a full board of equal parts, every move).
+        if (moves.len() == 2 && self.same_shape_swap(&moves[0], &moves[1]))
+            || (moves.len() > 2 && self.same_shape_permutation(moves))
+        {
+        } else if moves.len() <= 2 {
             let mut ids = [u32::MAX; 2];
             for (k, m) in moves.iter().enumerate() {
                 ids[k] = m.part;
@@ -819,7 +832,8 @@ impl Layout {
                 if meta.stamp != self.net_gen {
                     meta.stamp = self.net_gen;
                     meta.dirty = meta.count != 2 && meta.count as usize <= LARGE_NET;
-                    self.undo_nets.push((net as u32, self.bbox[net]));
+                    self.undo_net_ids.push(net as u32);
+                    self.undo_nets.push(self.bbox[net]);
                 }
                 if meta.count == 2 {
                     // A two-pin net's box is exactly its two pins, so the pin that stays
@@ -844,7 +858,7 @@ impl Layout {
             }
         }
         for k in 0..self.undo_nets.len() {
-            let (net, old) = self.undo_nets[k];
+            let (net, old_len) = (self.undo_net_ids[k], self.undo_nets[k].len);
             let net = net as usize;
             if self.net_meta[net].dirty {
                 self.bbox[net] = if self.net_start_len(net) <= LARGE_NET {
@@ -858,10 +872,54 @@ impl Layout {
                 b.len = b.hpwl();
             }
             let b = &self.bbox[net];
-            d.wirelength += b.weight * (b.len - old.len);
+            d.wirelength += b.weight * (b.len - old_len);
         }
         self.pending_delta = d;
         d
+    }
+
+    /// Whether two moves trade the places of two parts of identical courtyard, margin and
+    /// side mask, each keeping its turn.
+    #[inline]
+    fn same_shape_swap(&self, a: &PartMove, b: &PartMove) -> bool {
+        let (ca, cb) = (&self.parts[a.part as usize], &self.parts[b.part as usize]);
+        a.at == cb.pos
+            && b.at == ca.pos
+            && a.quarter == ca.quarter
+            && b.quarter == cb.quarter
+            && ca.court == cb.court
+            && ca.margin == cb.margin
+            && ca.mask() == cb.mask()
+    }
+
+    /// Whether a move only permutes the places of parts of one shape (identical
+    /// courtyard, margin and side mask), each keeping its turn: then the set of
+    /// courtyards is unchanged and so is every area term.
+    fn same_shape_permutation(&mut self, moves: &[PartMove]) -> bool {
+        let c0 = &self.parts[moves[0].part as usize];
+        let same = moves.iter().all(|m| {
+            let c = &self.parts[m.part as usize];
+            m.quarter == c.quarter
+                && c.court == c0.court
+                && c.margin == c0.margin
+                && c.mask() == c0.mask()
+        });
+        if !same {
+            return false;
+        }
+        let key = |p: Point| (p.x.to_bits(), p.y.to_bits());
+        let mut from = std::mem::take(&mut self.scratch_a);
+        let mut to = std::mem::take(&mut self.scratch_b);
+        from.clear();
+        to.clear();
+        from.extend(moves.iter().map(|m| key(self.parts[m.part as usize].pos)));
+        to.extend(moves.iter().map(|m| key(m.at)));
+        from.sort_unstable();
+        to.sort_unstable();
+        let same_places = from == to;
+        self.scratch_a = from;
+        self.scratch_b = to;
+        same_places
     }
 
     /// Adds one moved part's change of overlap (against the parts `overlap` does not
@@ -905,6 +963,7 @@ impl Layout {
         self.pending.clear();
         self.undo_pins.clear();
         self.undo_nets.clear();
+        self.undo_net_ids.clear();
     }
 
     /// Undoes the move last evaluated.
@@ -912,12 +971,13 @@ impl Layout {
         for &(p, x, y) in self.undo_pins.iter().rev() {
             self.pin_xy[p as usize] = [x, y];
         }
-        for &(net, b) in self.undo_nets.iter().rev() {
-            self.bbox[net as usize] = b;
+        for (&net, b) in self.undo_net_ids.iter().zip(&self.undo_nets).rev() {
+            self.bbox[net as usize] = *b;
         }
         self.pending.clear();
         self.undo_pins.clear();
         self.undo_nets.clear();
+        self.undo_net_ids.clear();
     }
 
     /// Applies a move unconditionally (evaluate + commit).
@@ -1148,6 +1208,28 @@ impl Layout {
         self.parts[part as usize].court_at(at, q)
     }
 
+    /// Grown courtyard (the one overlap is measured on) of a part if it stood at `at`
+    /// turned by `q`.
+    pub fn grown_courtyard_at(&self, part: u32, at: Point, q: Quarter) -> Rect {
+        self.parts[part as usize].grown_at(at, q)
+    }
+
+    /// The sides a part occupies: 1 top, 2 bottom, 3 both (through-hole parts).
+    pub fn side_mask(&self, part: u32) -> u8 {
+        self.parts[part as usize].mask()
+    }
+
+    /// The board outline.
+    pub fn outline(&self) -> &Shape {
+        &self.outline
+    }
+
+    /// The part keep-outs: shape, bounding box and the sides they apply to (as
+    /// [`Self::side_mask`]).
+    pub fn keepout_regions(&self) -> impl Iterator<Item = (&Shape, Rect, u8)> {
+        self.keepouts.iter().map(|k| (&k.shape, k.bounds, k.mask))
+    }
+
     /// Appends the parts whose origin lies in the grid cells `x0..=x1` by `y0..=y1` (cell
     /// = origin / grid, rounded) to `out`, sorted and without repeats.
     pub fn parts_in_cells(&self, x0: i64, x1: i64, y0: i64, y1: i64, out: &mut Vec<u32>) {
@@ -1191,6 +1273,64 @@ impl Layout {
             }
         }
         (k > 0).then(|| Point::new(sx / f64::from(k), sy / f64::from(k)))
+    }
+
+    /// The optimal region of a part's pins: for each of the part's nets (nets of more
+    /// than [`LARGE_NET`] pins left out), the box of the net's other pins; the range
+    /// between the two middle values of those boxes' low and high edges, in x and in y,
+    /// is where the part's pins' HPWL is least (the median rule of annealing placers).
+    /// Returned as the range for the part's origin (the pins' mean offset removed);
+    /// `None` when no net has another pin.
+    pub fn optimal_region(&self, part: u32, xs: &mut Vec<f64>, ys: &mut Vec<f64>) -> Option<Rect> {
+        xs.clear();
+        ys.clear();
+        let (mut ox, mut oy, mut k) = (0.0, 0.0, 0u32);
+        let c = &self.parts[part as usize];
+        for p in c.pins() {
+            let net = self.pins[p].net as usize;
+            if self.net_start_len(net) > LARGE_NET {
+                continue;
+            }
+            let (mut x0, mut x1, mut y0, mut y1) = (
+                f64::INFINITY,
+                f64::NEG_INFINITY,
+                f64::INFINITY,
+                f64::NEG_INFINITY,
+            );
+            for &q in self.net_pins(net) {
+                if self.pin_part[q as usize] != part {
+                    let [x, y] = self.pin_xy[q as usize];
+                    x0 = x0.min(x);
+                    x1 = x1.max(x);
+                    y0 = y0.min(y);
+                    y1 = y1.max(y);
+                }
+            }
+            if x0 > x1 {
+                continue;
+            }
+            let o = self.pins[p].off;
+            xs.push(x0 - o.x);
+            xs.push(x1 - o.x);
+            ys.push(y0 - o.y);
+            ys.push(y1 - o.y);
+            ox += o.x;
+            oy += o.y;
+            k += 1;
+        }
+        let _ = (ox, oy);
+        if k == 0 {
+            return None;
+        }
+        let n = xs.len();
+        xs.sort_unstable_by(f64::total_cmp);
+        ys.sort_unstable_by(f64::total_cmp);
+        Some(Rect::new(
+            xs[n / 2 - 1],
+            ys[n / 2 - 1],
+            xs[n / 2],
+            ys[n / 2],
+        ))
     }
 
     /// The part other than `not` whose origin is exactly `p` (the lowest-numbered if

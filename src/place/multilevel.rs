@@ -25,7 +25,8 @@
 
 use std::time::Instant;
 
-use super::anneal::{AnnealOptions, Annealer, PlaceError, StageReport};
+use super::anneal::{Annealer, StageReport};
+use super::options::{AnnealOptions, PlaceError};
 use super::rng::Rng;
 use super::spectral::{self, Graph};
 use super::{Placed, finish};
@@ -93,10 +94,10 @@ pub fn place(
         .map(|d| (movable_count(d).max(1) as f64).powf(4.0 / 3.0))
         .collect();
     let total: f64 = sizes.iter().sum();
-    let cap_for = |k: usize| {
-        opts.max_moves
-            .map(|m| ((m as f64 * sizes[k] / total) as u64).max(100))
-    };
+    let budget = opts
+        .max_moves
+        .unwrap_or_else(|| super::default_budget(movable_count(design), opts.effort));
+    let cap_for = |k: usize| Some(((budget as f64 * sizes[k] / total) as u64).max(100));
 
     let mut history: Vec<StageReport> = Vec::new();
     let (mut moves, mut accepted) = (0u64, 0u64);
@@ -504,6 +505,7 @@ fn coarsen(d: &Design, rng: &mut Rng, axis_x: bool, scatter: bool) -> Option<Lev
         nets,
         copper: Copper::default(),
         placement: None,
+        optimum: None,
     };
     let mut design = resolve(board).ok()?;
     // A coarser grid for coarser parts: half the median short side, in whole steps of

@@ -117,6 +117,7 @@ pub fn board(w: f64, h: f64, parts: Vec<Part>, nets: Vec<Net>) -> Board {
         nets,
         copper: Copper::default(),
         placement: None,
+        optimum: None,
     }
 }
 

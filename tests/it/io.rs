@@ -914,6 +914,8 @@ fn any_board() -> impl Strategy<Value = Board> {
                 energy,
                 wirelength_mm,
                 legal,
+                start: String::new(),
+                replicas: 1,
             },
         );
     (
@@ -938,6 +940,7 @@ fn any_board() -> impl Strategy<Value = Board> {
                 nets,
                 copper,
                 placement,
+                optimum: None,
             },
         )
 }

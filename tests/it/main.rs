@@ -11,6 +11,8 @@ mod footprints;
 /// Netlist import: RFC 4180 connection lists, EDIF 2 0 0, footprint names.
 mod import;
 mod io;
+/// Boards with known optima, the move budget, replica exchange and threads.
+mod optima;
 mod place;
 /// The router: A* against the `pathfinding` crate, and routed boards against the checker.
 mod route;
