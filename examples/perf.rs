@@ -10,7 +10,11 @@ fn main() {
             .map(|s| s.parse().unwrap())
             .unwrap_or(Schedule::LamDelosme),
         max_moves: Some(moves),
-
+        // PERF_DIRECTED=0 for plain moves only.
+        directed_fraction: std::env::var("PERF_DIRECTED")
+            .ok()
+            .and_then(|v| v.parse().ok())
+            .unwrap_or(AnnealOptions::default().directed_fraction),
         ..Default::default()
     };
     let mut a = Annealer::new(&d, o).unwrap();

@@ -18,7 +18,8 @@ use lehr::rules::{self, width};
 pub struct RouteArgs {
     /// A placed board file.
     pub board: PathBuf,
-    /// Allow 45-degree steps.
+    /// Allow 45-degree steps from the start (tried anyway when axis steps alone leave
+    /// nets unrouted)
     #[arg(long)]
     pub diagonal: bool,
     /// Most rip-up and reroute passes.
@@ -105,6 +106,7 @@ pub fn route_cmd(a: RouteArgs) -> Result<ExitCode> {
                 "track_length_mm": result.track_length_mm,
                 "vias": result.vias,
                 "passes": result.passes,
+                "diagonal": result.diagonal,
                 "seconds": result.seconds,
                 "out": out.display().to_string(),
             })
@@ -119,6 +121,9 @@ pub fn route_cmd(a: RouteArgs) -> Result<ExitCode> {
             result.track_length_mm,
             result.vias
         );
+        if result.diagonal && !a.diagonal {
+            println!("  45-degree steps were used: axis steps alone left nets unrouted");
+        }
         for u in &result.unrouted {
             println!("  not routed: {}: {}", u.net, u.why);
         }

@@ -90,7 +90,9 @@ pub struct Annealer {
     stage_acc: StageAccum,
     moves_per_stage: u64,
     cooling: Cooling,
+    /// Score ([`Self::score`]) and terms of the best state seen at a stage end.
     best_energy: f64,
+    best_terms: Terms,
     best_pos: Vec<Point>,
     best_quarter: Vec<Quarter>,
     /// Move count at the last full recomputation of the energy terms.
@@ -260,7 +262,8 @@ impl Annealer {
                     end: budget,
                 },
             ),
-            best_energy: energy,
+            best_energy: f64::INFINITY,
+            best_terms: Terms::default(),
             last_resync: 0,
             last_acceptance: 1.0,
             done: false,
@@ -275,6 +278,7 @@ impl Annealer {
             (_, None) => a.sample_start_temperature(a.opts.start_acceptance),
         };
         a.t = a.t0;
+        a.keep_if_best();
         let t_to = a.leg_end_temperature(a.t0);
         a.cooling.set_leg(Leg {
             t_from: a.t0,
@@ -413,17 +417,13 @@ impl Annealer {
             self.energy = self.layout.terms().energy(&self.weights);
             self.last_resync = self.moves;
         }
-        if self.energy < self.best_energy {
-            self.best_energy = self.energy;
-            self.best_pos.copy_from_slice(self.layout.positions());
-            self.best_quarter.copy_from_slice(self.layout.quarters());
-        }
+        self.keep_if_best();
         self.history.push(StageReport {
             stage: self.history.len() as u32 + 1,
             moves: self.moves,
             temperature: self.temperature(),
             energy: self.energy,
-            best_energy: self.best_energy,
+            best_energy: self.lowest_energy(),
             terms: self.layout.terms(),
             acceptance: acc,
             window: self.window,
@@ -447,8 +447,9 @@ impl Annealer {
     /// Over the last [`RAMP_SHARE`] of the first cooling leg, the legality terms' weights
     /// rise geometrically to [`RAMP_MAX`] times their own, so the run resolves its last
     /// slivers of overlap itself, trading wirelength for legality in small steps, rather
-    /// than leaving them to the legal finish's jumps. (The energy being minimised changes
-    /// then, so the best state is tracked afresh at each step.)
+    /// than leaving them to the legal finish's jumps. (The best state is judged by the
+    /// ramp's final weights throughout, [`Self::score`], so states before and during the
+    /// ramp compare fairly.)
     fn ramp_legality(&mut self) {
         let leg = self.cooling.leg;
         if leg.start != 0 || self.opts.schedule.is_descent() {
@@ -462,14 +463,31 @@ impl Annealer {
         let f = RAMP_MAX.powf(((p - from) / RAMP_SHARE).min(1.0));
         self.weights = self.base_weights.with_legality_factor(f);
         self.energy = self.layout.terms().energy(&self.weights);
-        self.best_energy = self.energy;
-        self.best_pos.copy_from_slice(self.layout.positions());
-        self.best_quarter.copy_from_slice(self.layout.quarters());
+    }
+
+    /// How good a state is for keeping: the energy with the legality terms at the
+    /// ramp's final weight, so a legal state beats one with a little less wiring but
+    /// slivers of overlap, whatever the weights the run is at.
+    fn score(&self) -> f64 {
+        self.layout
+            .terms()
+            .energy(&self.base_weights.with_legality_factor(RAMP_MAX))
+    }
+
+    /// Keeps the current state as the best if it scores lower.
+    fn keep_if_best(&mut self) {
+        let s = self.score();
+        if s < self.best_energy {
+            self.best_energy = s;
+            self.best_terms = self.layout.terms();
+            self.best_pos.copy_from_slice(self.layout.positions());
+            self.best_quarter.copy_from_slice(self.layout.quarters());
+        }
     }
 
     /// Puts the best state seen at a stage end back, if it beats the current one.
     pub fn restore_best(&mut self) {
-        if self.best_energy < self.energy {
+        if self.best_energy < self.score() {
             for i in 0..self.layout.part_count() as u32 {
                 let (p, q) = (self.best_pos[i as usize], self.best_quarter[i as usize]);
                 if self.layout.position(i) != p || self.layout.quarter(i) != q {
@@ -486,7 +504,6 @@ impl Annealer {
         if self.weights != self.base_weights {
             self.weights = self.base_weights;
             self.energy = self.layout.terms().energy(&self.weights);
-            self.best_energy = self.energy;
         }
     }
 
@@ -558,7 +575,12 @@ impl Annealer {
     /// Lowest energy of a state the run can return to: the best state kept at a stage
     /// end, or the current one.
     pub fn lowest_energy(&self) -> f64 {
-        self.best_energy.min(self.energy)
+        let best = if self.best_energy.is_finite() {
+            self.best_terms.energy(&self.weights)
+        } else {
+            f64::INFINITY
+        };
+        best.min(self.energy)
     }
     pub fn moves(&self) -> u64 {
         self.moves
@@ -634,7 +656,7 @@ impl Annealer {
     pub fn refresh_energy(&mut self) {
         self.layout.resync();
         self.energy = self.layout.terms().energy(&self.weights);
-        self.best_energy = self.best_energy.min(self.energy);
+        self.keep_if_best();
     }
 
     /// Changes the energy weights; the running energy follows.
@@ -643,6 +665,7 @@ impl Annealer {
         self.base_weights = w;
         self.energy = self.layout.terms().energy(&w);
         self.best_energy = f64::INFINITY;
+        self.keep_if_best();
     }
 
     /// Moves one part by hand (GUI drag); locked state is the caller's business.
@@ -650,6 +673,7 @@ impl Annealer {
         self.layout.apply(&[PartMove { part, at, quarter }]);
         self.energy = self.layout.terms().energy(&self.weights);
         self.best_energy = f64::INFINITY;
+        self.keep_if_best();
     }
 
     /// Locks or unlocks a part; locked parts leave the move set.

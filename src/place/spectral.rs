@@ -40,6 +40,7 @@
 //!
 //! Deterministic: no hash-map order, a fixed seed for the iteration's start vectors.
 
+use super::anneal::Annealer;
 use super::options::{AnnealOptions, Start};
 use super::rng::Rng;
 use crate::model::board::{rect_to_board, to_board};
@@ -47,8 +48,14 @@ use crate::model::{Design, Point, Rect};
 
 /// Nets with more parts than this are left out of the part graph (see the module docs).
 pub const CLIQUE_LIMIT: usize = 12;
-/// Fraction of uphill moves accepted at the anneal's start.
+/// Fraction of uphill moves accepted at the hottest refinement start tried
+/// ([`balance_temperature`]).
 pub const START_ACCEPTANCE: f64 = 0.2;
+/// The energy rise a refinement start may cause in a trial, relative to the start's.
+pub const BALANCE_RISE: f64 = 0.02;
+/// Trial length in moves per movable part, and the bisection's steps.
+const BALANCE_TRIAL: u64 = 20;
+const BALANCE_STEPS: usize = 8;
 /// The anneal's start window, in median part sides.
 pub const WINDOW_SIDES: f64 = 4.0;
 /// Rotations of the spectral plane tried, evenly over a full turn (each also mirrored).
@@ -1035,20 +1042,86 @@ pub fn start_design(design: &Design) -> Design {
 }
 
 /// The options of the anneal that refines the analytical start: a window of
-/// [`WINDOW_SIDES`] median part sides (unless `opts.start_window` sets one) and a start
-/// temperature at which the Metropolis test accepts [`START_ACCEPTANCE`] of the uphill
-/// moves sampled there (measured, so the refinement repairs the start without melting
-/// its global order); `scatter` and `multilevel` do not apply.
+/// [`WINDOW_SIDES`] median part sides (unless `opts.start_window` sets one) and the start
+/// temperature at which the start is in balance ([`balance_temperature`]), so the
+/// refinement repairs local disorder without melting the global order; `scatter` and
+/// `multilevel` do not apply. A start temperature in `opts` is kept.
 pub fn refine_options(design: &Design, opts: &AnnealOptions) -> AnnealOptions {
     let window = opts
         .start_window
         .unwrap_or(WINDOW_SIDES * super::multilevel::median_side(design));
-    AnnealOptions {
+    let mut o = AnnealOptions {
         scatter: false,
         multilevel: false,
         start: Start::Spectral,
         start_window: Some(window),
         start_acceptance: START_ACCEPTANCE,
         ..opts.clone()
+    };
+    if o.start_temperature.is_none() && !o.schedule.is_descent() {
+        o.start_temperature = balance_temperature(design, &o);
     }
+    o
+}
+
+/// The highest temperature at which annealing from the design's positions does not
+/// raise the energy by more than [`BALANCE_RISE`] (averaged over the second half of a
+/// trial of [`BALANCE_TRIAL`] moves per part): where the start is about as good as the
+/// chain's own balance, so annealing from there keeps what the start got right and
+/// repairs what it did not. Found by bisection on log T between the end temperature and
+/// the temperature at which [`START_ACCEPTANCE`] of the uphill moves are accepted, each
+/// trial on a fresh chain from the start (seeded, so the answer is reproducible).
+/// `None` when the trials cannot run (nothing to move).
+pub fn balance_temperature(design: &Design, opts: &AnnealOptions) -> Option<f64> {
+    let probe = AnnealOptions {
+        start_temperature: None,
+        max_moves: Some(1_000_000),
+        ..opts.clone()
+    };
+    let first = Annealer::new(design, probe.clone()).ok()?;
+    let movable = (0..first.layout().part_count() as u32)
+        .filter(|&i| !first.layout().is_locked(i))
+        .count();
+    if movable == 0 {
+        return None;
+    }
+    let e0 = first.energy();
+    let (mut lo, mut hi) = (first.end_temperature(), first.start_temperature());
+    if hi <= lo {
+        return Some(lo);
+    }
+    let trial = (BALANCE_TRIAL * movable as u64).max(1000);
+    let rises = |t: f64| -> bool {
+        let Ok(mut a) = Annealer::new(
+            design,
+            AnnealOptions {
+                start_temperature: Some(t),
+                ..probe.clone()
+            },
+        ) else {
+            return true;
+        };
+        let w = *a.weights();
+        let (mut sum, mut k, mut n) = (0.0, 0u64, 0u64);
+        a.sample_at(t, trial, |l| {
+            k += 1;
+            if k > trial / 2 {
+                sum += l.terms().energy(&w);
+                n += 1;
+            }
+        });
+        sum / n.max(1) as f64 > e0 + BALANCE_RISE * e0.abs()
+    };
+    if !rises(hi) {
+        return Some(hi);
+    }
+    for _ in 0..BALANCE_STEPS {
+        let mid = (lo * hi).sqrt();
+        if rises(mid) {
+            hi = mid;
+        } else {
+            lo = mid;
+        }
+    }
+    Some(lo)
 }

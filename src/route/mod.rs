@@ -152,6 +152,10 @@ pub struct RouteResult {
     pub seconds: f64,
     /// The cancel flag stopped the run early; the copper is still legal.
     pub cancelled: bool,
+    /// 45-degree steps were allowed: asked for, or tried because axis steps alone left
+    /// nets unrouted (see [`route`]).
+    #[serde(default)]
+    pub diagonal: bool,
 }
 
 /// Why routing could not start.
@@ -180,6 +184,11 @@ pub const MAX_GRID_POINTS: usize = 6_000_000;
 /// Routes every net of the design with two or more placed pins (see the module
 /// documentation). `progress` is called often and should be cheap; set `cancel` from
 /// another thread to stop early with the nets finished so far.
+///
+/// When axis steps alone leave nets unrouted, the whole board is routed again with
+/// 45-degree steps as well (a diagonal slips between pads where two axis steps do not
+/// fit), and that result is kept if it connects more nets; [`RouteResult::diagonal`]
+/// says which was kept. Boards that route with axis steps are unchanged.
 pub fn route(
     design: &Design,
     opts: &RouteOptions,
@@ -188,5 +197,24 @@ pub fn route(
 ) -> Result<RouteResult, RouteError> {
     let start = std::time::Instant::now();
     let mut router = negotiate::Router::new(design, opts, start)?;
-    Ok(router.run(cancel, progress))
+    let first = router.run(cancel, progress);
+    if opts.diagonal || first.unrouted.is_empty() || first.cancelled {
+        return Ok(first);
+    }
+    let diagonal = RouteOptions {
+        diagonal: true,
+        ..opts.clone()
+    };
+    let Ok(mut again) = negotiate::Router::new(design, &diagonal, start) else {
+        return Ok(first);
+    };
+    let second = again.run(cancel, progress);
+    Ok(if second.routed > first.routed && !second.cancelled {
+        second
+    } else {
+        RouteResult {
+            seconds: start.elapsed().as_secs_f64(),
+            ..first
+        }
+    })
 }

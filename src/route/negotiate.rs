@@ -951,6 +951,7 @@ impl<'a> Router<'a> {
             passes: self.passes,
             seconds: self.start.elapsed().as_secs_f64(),
             cancelled,
+            diagonal: self.opts.diagonal,
         }
     }
 
