@@ -1,5 +1,5 @@
-use lehr::model::resolve;
-use lehr::place::{AnnealOptions, Annealer, Schedule, generate};
+use lehr_engine::model::resolve;
+use lehr_engine::place::{AnnealOptions, Annealer, Schedule, generate};
 fn main() {
     let n: u32 = std::env::args().nth(1).unwrap().parse().unwrap();
     let moves: u64 = std::env::args().nth(2).unwrap().parse().unwrap();

@@ -6,11 +6,11 @@
 //! key=value pairs set `AnnealOptions` fields (JSON values: `schedule={"Geometric":{"alpha":0.9}}`,
 //! `max_moves=1000000`); `descent=1` and `plain=1` also run descent and the plain swap
 //! annealer from the same start with the same number of moves.
-use lehr::model::resolve;
-use lehr::place::{self, AnnealOptions, Schedule, Start, baseline, generate};
+use lehr_engine::model::resolve;
+use lehr_engine::place::{self, AnnealOptions, Schedule, Start, baseline, generate};
 use serde_json::Value;
 
-fn instance(spec: &str) -> (String, lehr::model::Board) {
+fn instance(spec: &str) -> (String, lehr_engine::model::Board) {
     let f: Vec<&str> = spec.split(':').collect();
     let (r, c) = f[1].split_once('x').expect("RxC");
     let (r, c): (u32, u32) = (r.parse().unwrap(), c.parse().unwrap());
@@ -56,7 +56,7 @@ fn main() {
         let mut ratios = Vec::new();
         if start_only {
             let t = std::time::Instant::now();
-            let at = lehr::place::spectral::start_positions(&d);
+            let at = lehr_engine::place::spectral::start_positions(&d);
             let mut cells: Vec<(i64, i64)> = at
                 .iter()
                 .map(|p| ((p.x / 2.54).round() as i64, (p.y / 2.54).round() as i64))
@@ -81,7 +81,7 @@ fn main() {
                 p.at = Some(a);
             }
             let dd = resolve(b).unwrap();
-            let l = lehr::place::Layout::new(&dd).unwrap();
+            let l = lehr_engine::place::Layout::new(&dd).unwrap();
             println!(
                 "{name}: start {:.4} overlap {:.3} in {:.2} s",
                 l.wirelength_mm() / opt,
@@ -98,7 +98,7 @@ fn main() {
             let p = place::place(&d, &o, |_| true).expect("placement runs");
             let r = p.report.wirelength_mm / opt;
             if let Ok(path) = std::env::var("QOUT") {
-                let _ = lehr::io::save_board(
+                let _ = lehr_engine::io::save_board(
                     std::path::Path::new(&format!("{path}.{seed}.board.ron")),
                     &p.board,
                 );
@@ -106,7 +106,7 @@ fn main() {
             if let Ok(path) = std::env::var("QLOG") {
                 let _ = std::fs::write(
                     format!("{path}.{seed}.csv"),
-                    lehr::fab::runlog::run_log(&p.history),
+                    lehr_engine::fab::runlog::run_log(&p.history),
                 );
             }
             ratios.push(r);

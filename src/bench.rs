@@ -8,8 +8,8 @@ use std::time::Instant;
 use anyhow::Result;
 use serde_json::{Value, json};
 
-use lehr::model::{Board, Design, resolve};
-use lehr::place::{
+use lehr_engine::model::{Board, Design, resolve};
+use lehr_engine::place::{
     self, AnnealOptions, Annealer, Placed, Schedule, Start, baseline, generate, thread_count,
 };
 
@@ -391,7 +391,7 @@ fn route_samples(args: &BenchArgs, out: &mut Out) -> Result<()> {
     use std::sync::atomic::AtomicBool;
     let seeds: &[u64] = if args.quick { &[1] } else { &[1, 2, 3] };
     for (name, source) in ROUTE_SAMPLES {
-        let design = lehr::io::parse_board(source, name)?;
+        let design = lehr_engine::io::parse_board(source, name)?;
         let (mut worst_seconds, mut worst_fraction, mut most_violations) = (0.0f64, 1.0f64, 0);
         for &seed in seeds {
             let opts = AnnealOptions {
@@ -411,16 +411,16 @@ fn route_samples(args: &BenchArgs, out: &mut Out) -> Result<()> {
             }
             let placed = resolve(placed.board).map_err(problems)?;
             let cancel = AtomicBool::new(false);
-            let r = lehr::route::route(
+            let r = lehr_engine::route::route(
                 &placed,
-                &lehr::route::RouteOptions::default(),
+                &lehr_engine::route::RouteOptions::default(),
                 &cancel,
                 &mut |_| {},
             )?;
             let mut board = placed.board.clone();
             board.copper = r.copper.clone();
             let routed = resolve(board).map_err(problems)?;
-            let violations = lehr::rules::check(&routed).len();
+            let violations = lehr_engine::rules::check(&routed).len();
             let fraction = r.routed as f64 / r.nets.max(1) as f64;
             if !args.json {
                 println!(
@@ -447,9 +447,9 @@ fn route_samples(args: &BenchArgs, out: &mut Out) -> Result<()> {
     Ok(())
 }
 
-fn problems(ps: Vec<lehr::model::Problem>) -> anyhow::Error {
+fn problems(ps: Vec<lehr_engine::model::Problem>) -> anyhow::Error {
     anyhow::anyhow!(
         "generated board failed its checks: {}",
-        lehr::model::problems_line(&ps)
+        lehr_engine::model::problems_line(&ps)
     )
 }

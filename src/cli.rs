@@ -10,8 +10,8 @@ use clap::{Args, Parser, Subcommand};
 use indicatif::{ProgressBar, ProgressStyle};
 use serde_json::json;
 
-use lehr::model::{Board, Design};
-use lehr::place::{self, AnnealOptions, Placed, Schedule, StageReport, Start, generate};
+use lehr_engine::model::{Board, Design};
+use lehr_engine::place::{self, AnnealOptions, Placed, Schedule, StageReport, Start, generate};
 
 /// The board shown when no file is given: an invented bench LED dimmer.
 pub const SAMPLE_BOARD: &str = include_str!("../sample-boards/led-dimmer.board.ron");
@@ -321,7 +321,7 @@ pub fn run() -> Result<ExitCode> {
 }
 
 fn place_cmd(a: PlaceArgs) -> Result<ExitCode> {
-    let design = lehr::io::load_board(&a.board)?;
+    let design = lehr_engine::io::load_board(&a.board)?;
     let opts = AnnealOptions {
         seed: a.seed,
         schedule: a.schedule,
@@ -336,7 +336,7 @@ fn place_cmd(a: PlaceArgs) -> Result<ExitCode> {
         start: a.start,
         ..AnnealOptions::default()
     };
-    lehr::place::options::check_options(&opts)?;
+    lehr_engine::place::options::check_options(&opts)?;
     let out = a
         .out
         .clone()
@@ -353,9 +353,12 @@ fn place_cmd(a: PlaceArgs) -> Result<ExitCode> {
     }
     let optimum = design.board.optimum.as_ref().map(|o| o.wirelength_mm);
     let placed = run_place(&design, &opts, !a.json)?;
-    lehr::io::save_board(&out, &placed.board)?;
+    lehr_engine::io::save_board(&out, &placed.board)?;
     if let Some(log) = &a.log {
-        lehr::io::write_file(log, lehr::fab::runlog::run_log(&placed.history).as_bytes())?;
+        lehr_engine::io::write_file(
+            log,
+            lehr_engine::fab::runlog::run_log(&placed.history).as_bytes(),
+        )?;
     }
     if a.json {
         let r = &placed.report;
@@ -533,7 +536,7 @@ fn generate_cmd(g: GenerateCommand) -> Result<ExitCode> {
         }
     };
     let optimum = board.optimum.as_ref().map(|o| o.wirelength_mm);
-    lehr::io::save_board(&out, &board)?;
+    lehr_engine::io::save_board(&out, &board)?;
     if json {
         let mut v = json!({
             "parts": board.parts.len(),

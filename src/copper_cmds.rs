@@ -11,8 +11,8 @@ use clap::Args;
 use indicatif::{ProgressBar, ProgressStyle};
 use serde_json::json;
 
-use lehr::route::{self, RouteOptions, RouteProgress};
-use lehr::rules::{self, width};
+use lehr_engine::route::{self, RouteOptions, RouteProgress};
+use lehr_engine::rules::{self, width};
 
 #[derive(Args, Debug)]
 pub struct RouteArgs {
@@ -61,7 +61,7 @@ pub struct WidthArgs {
 }
 
 pub fn route_cmd(a: RouteArgs) -> Result<ExitCode> {
-    let design = lehr::io::load_board(&a.board)?;
+    let design = lehr_engine::io::load_board(&a.board)?;
     let mut opts = RouteOptions {
         diagonal: a.diagonal,
         ..RouteOptions::default()
@@ -95,7 +95,7 @@ pub fn route_cmd(a: RouteArgs) -> Result<ExitCode> {
         .out
         .clone()
         .unwrap_or_else(|| crate::cli::with_suffix(&a.board, "routed"));
-    lehr::io::save_board(&out, &board)?;
+    lehr_engine::io::save_board(&out, &board)?;
     if a.json {
         println!(
             "{}",
@@ -137,7 +137,7 @@ pub fn route_cmd(a: RouteArgs) -> Result<ExitCode> {
 }
 
 pub fn check_cmd(a: CheckArgs) -> Result<ExitCode> {
-    let design = lehr::io::load_board(&a.board)?;
+    let design = lehr_engine::io::load_board(&a.board)?;
     let items = rules::check(&design);
     if a.json {
         println!("{}", json!({ "violations": items.len(), "items": items }));

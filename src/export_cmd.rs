@@ -1,5 +1,5 @@
 //! `lehr export`: pictures and fabrication files of a board. The library makes the text
-//! (`lehr::fab`), the window's scene code makes the pictures (`app::svg`); this writes
+//! (`lehr_engine::fab`), the window's scene code makes the pictures (`app::svg`); this writes
 //! each file atomically and touches nothing it was not asked to write.
 
 use std::path::{Path, PathBuf};
@@ -9,8 +9,8 @@ use anyhow::{Context, Result, anyhow, bail};
 use clap::Args;
 use serde_json::json;
 
-use lehr::fab::gerber::{GerberLayer, gerber};
-use lehr::fab::{self, FabOptions};
+use lehr_engine::fab::gerber::{GerberLayer, gerber};
+use lehr_engine::fab::{self, FabOptions};
 
 #[derive(Args, Debug)]
 pub struct ExportArgs {
@@ -84,7 +84,7 @@ impl Targets {
 /// The contents of every file `targets` names, before anything is written (the CLI and
 /// the window both write them with [`write_files`]).
 pub fn build_files(
-    design: &lehr::model::Design,
+    design: &lehr_engine::model::Design,
     stem: &str,
     targets: &Targets,
     opts: &FabOptions,
@@ -129,7 +129,7 @@ pub fn write_files(targets: &Targets, files: &[(PathBuf, Vec<u8>)]) -> Result<()
             .with_context(|| format!("cannot make the folder {}", dir.display()))?;
     }
     for (path, bytes) in files {
-        lehr::io::write_file(path, bytes)?;
+        lehr_engine::io::write_file(path, bytes)?;
     }
     Ok(())
 }
@@ -145,7 +145,7 @@ pub fn export_cmd(a: ExportArgs) -> Result<ExitCode> {
             "nothing to export: give at least one of --svg, --png, --gerber, --drill, --centroid"
         );
     }
-    let design = lehr::io::load_board(&a.board)?;
+    let design = lehr_engine::io::load_board(&a.board)?;
     let opts = FabOptions {
         mask_expansion: a.mask_expansion,
         ..FabOptions::default()

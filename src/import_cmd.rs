@@ -1,5 +1,5 @@
 //! `lehr import`: a netlist (CSV/TSV connection list or EDIF 2 0 0) becomes a board file
-//! with unplaced parts, ready for `lehr place`. The work is `lehr::io::import_file`.
+//! with unplaced parts, ready for `lehr place`. The work is `lehr_engine::io::import_file`.
 
 use std::path::PathBuf;
 use std::process::ExitCode;
@@ -8,7 +8,7 @@ use anyhow::Result;
 use clap::Args;
 use serde_json::json;
 
-use lehr::io::{Format, ImportFiles, ImportOptions, OutlineSize, import_file};
+use lehr_engine::io::{Format, ImportFiles, ImportOptions, OutlineSize, import_file};
 
 #[derive(Args, Debug)]
 pub struct ImportArgs {
@@ -50,7 +50,7 @@ pub fn import_cmd(a: ImportArgs) -> Result<ExitCode> {
         outline,
     };
     let (format, imported) = import_file(&files, &opts)?;
-    lehr::io::save_board(&a.out, &imported.board)?;
+    lehr_engine::io::save_board(&a.out, &imported.board)?;
     let board = &imported.board;
     let bounds = board.outline.bounds();
     let format_name = match format {

@@ -4,7 +4,7 @@
 
 use egui::{Color32, Mesh, Pos2, Sense, Shape, Vec2, pos2};
 
-use lehr::model::{Design, Point, Quarter, Rect};
+use lehr_engine::model::{Design, Point, Quarter, Rect};
 
 use super::Action;
 use super::raster;
@@ -482,9 +482,12 @@ impl Canvas {
                 t.push_str("  (locked)");
             }
             for (bit, what) in [
-                (lehr::engine::CONFLICT_OVERLAP, "overlaps another part"),
-                (lehr::engine::CONFLICT_OUTSIDE, "outside the board"),
-                (lehr::engine::CONFLICT_KEEPOUT, "in a keep-out"),
+                (
+                    lehr_engine::worker::CONFLICT_OVERLAP,
+                    "overlaps another part",
+                ),
+                (lehr_engine::worker::CONFLICT_OUTSIDE, "outside the board"),
+                (lehr_engine::worker::CONFLICT_KEEPOUT, "in a keep-out"),
             ] {
                 if pg.conflicts & bit != 0 {
                     t.push('\n');

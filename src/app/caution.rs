@@ -1,8 +1,8 @@
 //! Safety cautions: a board whose net classes declare hazardous voltages, or currents that
 //! need wide tracks, gets a visible caution in the window.
 
-use lehr::model::Design;
-use lehr::model::board::NetClass;
+use lehr_engine::model::Design;
+use lehr_engine::model::board::NetClass;
 
 /// Voltages above this (DC or AC peak, V) are treated as hazardous: the usual limit of
 /// extra-low voltage for dry conditions (common practice).
@@ -105,9 +105,9 @@ mod tests {
 
     #[test]
     fn a_mains_board_gets_the_full_caution() {
-        let mut board = lehr::place::generate::grid_board(2, 2.54, 1);
+        let mut board = lehr_engine::place::generate::grid_board(2, 2.54, 1);
         board.classes.push(class(Some(325.0), None, 0.5));
-        let design = lehr::model::resolve(board).expect("valid");
+        let design = lehr_engine::model::resolve(board).expect("valid");
         let text = caution(&design).expect("a caution");
         assert!(text.contains("IPC-2221"));
         assert!(text.contains("licensed"));

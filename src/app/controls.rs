@@ -4,8 +4,8 @@
 
 use serde::{Deserialize, Serialize};
 
-use lehr::engine::Snapshot;
-use lehr::place::{AnnealOptions, Schedule, Start, Weights};
+use lehr_engine::place::{AnnealOptions, Schedule, Start, Weights};
+use lehr_engine::worker::Snapshot;
 
 use super::Action;
 

@@ -3,9 +3,9 @@
 //! length, vias, time), Check (the design rules on the parts where they stand and the
 //! copper), and the list of broken rules, each of which the canvas can zoom to.
 
-use lehr::engine::{Checked, Routed, Snapshot};
-use lehr::route::{RoutePhase, RouteProgress};
-use lehr::rules::ViolationKind;
+use lehr_engine::route::{RoutePhase, RouteProgress};
+use lehr_engine::rules::ViolationKind;
+use lehr_engine::worker::{Checked, Routed, Snapshot};
 
 use super::Action;
 

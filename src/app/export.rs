@@ -5,7 +5,7 @@
 use egui::Color32;
 use tiny_skia::{FillRule, Paint, PathBuilder, Pixmap, Stroke, Transform};
 
-use lehr::model::{Design, Point, Rect};
+use lehr_engine::model::{Design, Point, Rect};
 
 use super::scene::{self, Geometry, Marks, Palette, Pen, Static};
 
@@ -281,7 +281,9 @@ mod tests {
 
     #[test]
     fn the_picture_shows_the_board_and_its_pads() {
-        let design = lehr::model::resolve(lehr::place::generate::grid_board(4, 2.54, 3)).unwrap();
+        let design =
+            lehr_engine::model::resolve(lehr_engine::place::generate::grid_board(4, 2.54, 3))
+                .unwrap();
         let st = Static::new(&design);
         let mut g = Geometry::build(&design, &st, None, None);
         // Unrouted lines run through pad centres; leave them out to see the pad.
@@ -321,7 +323,9 @@ mod tests {
 
     #[test]
     fn huge_boards_are_scaled_down() {
-        let design = lehr::model::resolve(lehr::place::generate::grid_board(3, 2.54, 3)).unwrap();
+        let design =
+            lehr_engine::model::resolve(lehr_engine::place::generate::grid_board(3, 2.54, 3))
+                .unwrap();
         let st = Static::new(&design);
         let g = Geometry::build(&design, &st, None, None);
         let pic = render(&design, &st, &g, &Palette::dark(), 1e6, true).unwrap();

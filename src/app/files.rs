@@ -31,7 +31,7 @@ pub fn pick_save(folder: Option<&Path>, name: &str) -> Option<PathBuf> {
     let mut d = rfd::FileDialog::new()
         .set_title("Save the board")
         .add_filter("board files", &["ron"])
-        .set_file_name(format!("{name}.{}", lehr::io::BOARD_EXTENSION));
+        .set_file_name(format!("{name}.{}", lehr_engine::io::BOARD_EXTENSION));
     if let Some(f) = folder {
         d = d.set_directory(f);
     }

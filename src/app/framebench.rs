@@ -15,7 +15,7 @@ pub fn measure_frames(board: Option<&Path>, seconds: f64, interval_ms: Option<u6
     settings.controls.speed = 20_000;
     let mut app = match board {
         Some(p) => LehrApp::new(
-            lehr::io::load_board(p)?,
+            lehr_engine::io::load_board(p)?,
             Some(p.to_path_buf()),
             super::files::short_name(p),
             settings,

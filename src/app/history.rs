@@ -1,7 +1,7 @@
 //! The plot history: every sample the engine sends, kept within a fixed number of points
 //! however long the run, by thinning the older half whenever the store is full.
 
-use lehr::engine::PlotPoint;
+use lehr_engine::worker::PlotPoint;
 
 /// At most this many samples are kept.
 pub const CAPACITY: usize = 4096;

@@ -33,11 +33,11 @@ use std::time::{Duration, Instant};
 use anyhow::{Result, anyhow};
 use serde::{Deserialize, Serialize};
 
-use lehr::engine::{Command, EngineHandle, Event, Snapshot};
-use lehr::model::{Design, Point, Quarter};
-use lehr::place::{Schedule, Weights};
-use lehr::route::RouteOptions;
-use lehr::rules::ViolationKind;
+use lehr_engine::model::{Design, Point, Quarter};
+use lehr_engine::place::{Schedule, Weights};
+use lehr_engine::route::RouteOptions;
+use lehr_engine::rules::ViolationKind;
+use lehr_engine::worker::{Command, EngineHandle, Event, Snapshot};
 
 use canvas::Canvas;
 use controls::{ControlSettings, Controls};
@@ -293,7 +293,8 @@ impl LehrApp {
 
     /// The built-in sample board.
     pub fn sample(settings: Settings) -> Result<LehrApp> {
-        let design = lehr::io::parse_board(crate::cli::SAMPLE_BOARD, crate::cli::SAMPLE_NAME)?;
+        let design =
+            lehr_engine::io::parse_board(crate::cli::SAMPLE_BOARD, crate::cli::SAMPLE_NAME)?;
         Ok(LehrApp::new(
             design,
             None,
@@ -521,9 +522,9 @@ impl LehrApp {
     }
 
     /// The board with the parts where the engine has them now.
-    fn current_board(&self) -> lehr::model::Board {
+    fn current_board(&self) -> lehr_engine::model::Board {
         let mut board = match self.snap.as_deref() {
-            Some(s) => lehr::place::board_at(&self.doc.design, &s.positions, &s.quarters),
+            Some(s) => lehr_engine::place::board_at(&self.doc.design, &s.positions, &s.quarters),
             None => self.doc.design.board.clone(),
         };
         if let Some(s) = self.snap.as_deref() {
@@ -563,7 +564,7 @@ impl LehrApp {
 
     /// Opens a board file; a problem is shown in the window with file, line and column.
     pub fn open_path(&mut self, path: &Path) {
-        match lehr::io::load_board(path) {
+        match lehr_engine::io::load_board(path) {
             Ok(design) => {
                 files::remember(&mut self.settings.recent, path);
                 self.settings.last_folder = path.parent().map(Path::to_path_buf);
@@ -580,7 +581,7 @@ impl LehrApp {
 
     fn save_to(&mut self, path: &Path) {
         let board = self.current_board();
-        match lehr::io::save_board(path, &board) {
+        match lehr_engine::io::save_board(path, &board) {
             Ok(()) => {
                 self.doc.dirty = false;
                 self.doc.path = Some(path.to_path_buf());
@@ -623,7 +624,7 @@ impl LehrApp {
     /// Imports a netlist (with its parts table or footprint mapping when one lies beside
     /// it, see [`files::companion`]) as a new board that is not saved yet.
     fn import_netlist(&mut self, path: &Path) {
-        use lehr::io::import::{Format, ImportFiles, ImportOptions, import_file};
+        use lehr_engine::io::import::{Format, ImportFiles, ImportOptions, import_file};
         let format = std::fs::read(path).map(|b| Format::detect(path, &b));
         let (parts, footprints) = match format {
             Ok(Format::Connections) => (files::companion(path, "parts.csv"), None),
@@ -638,12 +639,12 @@ impl LehrApp {
         let result = import_file(&files, &ImportOptions::default())
             .map_err(|e| e.to_string())
             .and_then(|(_, imp)| {
-                lehr::model::resolve(imp.board)
+                lehr_engine::model::resolve(imp.board)
                     .map(|d| (d, imp.warnings))
                     .map_err(|ps| {
                         format!(
                             "the imported board is not valid: {}",
-                            lehr::model::problems_line(&ps)
+                            lehr_engine::model::problems_line(&ps)
                         )
                     })
             });
@@ -683,10 +684,10 @@ impl LehrApp {
     /// Writes the Gerber files, the drill program, the centroid list and an SVG picture
     /// of the board as it stands into `dir`; returns what to tell the user.
     fn export_fab(&self, dir: &Path) -> Result<String> {
-        let design = lehr::model::resolve(self.current_board()).map_err(|ps| {
+        let design = lehr_engine::model::resolve(self.current_board()).map_err(|ps| {
             anyhow!(
                 "the board is not valid as placed: {}",
-                lehr::model::problems_line(&ps)
+                lehr_engine::model::problems_line(&ps)
             )
         })?;
         let stem = crate::export_cmd::file_stem(Path::new(&format!("{}.board.ron", self.doc.name)));
@@ -695,11 +696,11 @@ impl LehrApp {
             &design,
             &stem,
             &targets,
-            &lehr::fab::FabOptions::default(),
+            &lehr_engine::fab::FabOptions::default(),
         )?;
         crate::export_cmd::write_files(&targets, &files)?;
         let mut text = format!("Wrote {} files into {}.", files.len(), dir.display());
-        for w in lehr::fab::warnings(&design) {
+        for w in lehr_engine::fab::warnings(&design) {
             text.push(' ');
             text.push_str(&w);
             text.push('.');
@@ -809,7 +810,10 @@ impl LehrApp {
                 None => self.no_dialog(),
             },
             Action::OpenSample => {
-                match lehr::io::parse_board(crate::cli::SAMPLE_BOARD, crate::cli::SAMPLE_NAME) {
+                match lehr_engine::io::parse_board(
+                    crate::cli::SAMPLE_BOARD,
+                    crate::cli::SAMPLE_NAME,
+                ) {
                     Ok(d) => self.load(d, None, crate::cli::SAMPLE_NAME.to_string()),
                     Err(e) => {
                         self.message = Some(Message {
@@ -1538,7 +1542,7 @@ pub struct OpenOptions {
 pub fn run_window(board: Option<&Path>, o: &OpenOptions) -> Result<()> {
     // Read the board first so a bad file is reported in the terminal too.
     let loaded = match board {
-        Some(p) => Some((lehr::io::load_board(p)?, p.to_path_buf())),
+        Some(p) => Some((lehr_engine::io::load_board(p)?, p.to_path_buf())),
         None => None,
     };
     if !display_available() {
@@ -1617,8 +1621,8 @@ pub fn run_window(board: Option<&Path>, o: &OpenOptions) -> Result<()> {
 /// frozen or `seconds` have passed.
 pub fn measure_headless(board: Option<&Path>, seconds: f64) -> Result<()> {
     let design = match board {
-        Some(p) => lehr::io::load_board(p)?,
-        None => lehr::io::parse_board(crate::cli::SAMPLE_BOARD, crate::cli::SAMPLE_NAME)?,
+        Some(p) => lehr_engine::io::load_board(p)?,
+        None => lehr_engine::io::parse_board(crate::cli::SAMPLE_BOARD, crate::cli::SAMPLE_NAME)?,
     };
     let parts = design.board.parts.len();
     let h = EngineHandle::spawn(design, ControlSettings::default().options(None));

@@ -5,7 +5,7 @@
 use egui::Color32;
 use egui_plot::{Legend, Line, Plot, PlotPoints};
 
-use lehr::engine::Snapshot;
+use lehr_engine::worker::Snapshot;
 
 use super::history::History;
 

@@ -13,7 +13,7 @@
 use egui::Color32;
 use tiny_skia::Pixmap;
 
-use lehr::model::{Design, Point, Rect};
+use lehr_engine::model::{Design, Point, Rect};
 
 use super::export::SkiaPen;
 use super::scene::{self, Geometry, Marks, Palette, Pen, Static};

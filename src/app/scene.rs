@@ -4,10 +4,10 @@
 
 use egui::Color32;
 
-use lehr::engine::Snapshot;
-use lehr::model::board::Layer;
-use lehr::model::{Design, PadShape, Point, Quarter, Rect, Side, rect_to_board, to_board};
-use lehr::place::mst::{Metric, spanning_tree};
+use lehr_engine::model::board::Layer;
+use lehr_engine::model::{Design, PadShape, Point, Quarter, Rect, Side, rect_to_board, to_board};
+use lehr_engine::place::mst::{Metric, spanning_tree};
+use lehr_engine::worker::Snapshot;
 
 /// Colours of the board picture. Chosen for lehr: a dark-green board on the dark theme, a
 /// pale sage board on the light one; copper in warm gold, the bottom side in teal, wiring
@@ -114,7 +114,7 @@ pub struct PartGeom {
     pub pads: Vec<PadGeom>,
     pub side: Side,
     pub locked: bool,
-    /// Conflict bits, see [`lehr::engine::Snapshot::conflicts`].
+    /// Conflict bits, see [`lehr_engine::worker::Snapshot::conflicts`].
     pub conflicts: u8,
 }
 
@@ -212,8 +212,8 @@ impl Geometry {
                         rect: Rect::centered(to_board(pad.at, at, q, side), w, h),
                         shape: pad.shape,
                         drill: match pad.kind {
-                            lehr::model::PadKind::ThroughHole { drill, .. } => Some(drill),
-                            lehr::model::PadKind::Smd => None,
+                            lehr_engine::model::PadKind::ThroughHole { drill, .. } => Some(drill),
+                            lehr_engine::model::PadKind::Smd => None,
                         },
                         net: st.pad_net[i][k],
                     }
@@ -474,7 +474,7 @@ pub fn triangulate(pts: &[Point]) -> Vec<[usize; 3]> {
     if n < 3 {
         return Vec::new();
     }
-    let area = lehr::model::geom::signed_area(pts);
+    let area = lehr_engine::model::geom::signed_area(pts);
     let ccw = area >= 0.0;
     let mut idx: Vec<usize> = if ccw {
         (0..n).collect()
@@ -540,7 +540,9 @@ mod tests {
             assert_eq!(tris.len(), 4);
             let area: f64 = tris
                 .iter()
-                .map(|t| lehr::model::geom::signed_area(&[pts[t[0]], pts[t[1]], pts[t[2]]]).abs())
+                .map(|t| {
+                    lehr_engine::model::geom::signed_area(&[pts[t[0]], pts[t[1]], pts[t[2]]]).abs()
+                })
                 .sum();
             assert!((area - 3.0).abs() < 1e-12);
         }
@@ -549,7 +551,9 @@ mod tests {
 
     #[test]
     fn hit_tests_find_parts_and_nets() {
-        let design = lehr::model::resolve(lehr::place::generate::grid_board(3, 2.54, 1)).unwrap();
+        let design =
+            lehr_engine::model::resolve(lehr_engine::place::generate::grid_board(3, 2.54, 1))
+                .unwrap();
         let st = Static::new(&design);
         let g = Geometry::build(&design, &st, None, None);
         assert_eq!(g.parts.len(), 9);

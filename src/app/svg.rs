@@ -18,7 +18,7 @@ use std::fmt::Write as _;
 
 use egui::Color32;
 
-use lehr::model::{Design, Point, Rect};
+use lehr_engine::model::{Design, Point, Rect};
 
 use super::export;
 use super::scene::{self, Geometry, Marks, Palette, Pen, Static};
@@ -354,7 +354,9 @@ mod tests {
 
     #[test]
     fn the_picture_holds_every_pad() {
-        let design = lehr::model::resolve(lehr::place::generate::grid_board(3, 2.54, 1)).unwrap();
+        let design =
+            lehr_engine::model::resolve(lehr_engine::place::generate::grid_board(3, 2.54, 1))
+                .unwrap();
         let svg = board_svg(&design);
         let pads: usize = design.footprints.iter().map(|f| f.pads.len()).sum();
         let drawn = svg.matches("class=\"pad-top\"").count();

@@ -11,8 +11,8 @@ use std::time::{Duration, Instant};
 use egui_kittest::Harness;
 use egui_kittest::kittest::Queryable;
 
-use lehr::model::resolve;
-use lehr::place::{Schedule, generate};
+use lehr_engine::model::resolve;
+use lehr_engine::place::{Schedule, generate};
 
 use super::{Action, LehrApp, Settings};
 
@@ -200,7 +200,7 @@ fn opening_asks_before_discarding_unsaved_changes_and_shows_cautions() {
     let path = dir.path().join("mains.board.ron");
     let mut board = generate::grid_board(3, 2.54, 1);
     board.name = "mains".into();
-    board.classes.push(lehr::model::board::NetClass {
+    board.classes.push(lehr_engine::model::board::NetClass {
         name: "line".into(),
         track_width: 1.0,
         clearance: 2.5,
@@ -208,7 +208,7 @@ fn opening_asks_before_discarding_unsaved_changes_and_shows_cautions() {
         voltage: Some(325.0),
         temp_rise: None,
     });
-    lehr::io::save_board(&path, &board).unwrap();
+    lehr_engine::io::save_board(&path, &board).unwrap();
 
     let mut h = harness(grid_app());
     wait_until(&mut h, "the first snapshot arrives", |a| {
@@ -270,7 +270,7 @@ fn saving_writes_the_current_positions() {
     });
     h.state_mut().save_to(&path);
     assert!(!h.state().is_dirty());
-    let saved = lehr::io::load_board(&path).expect("the saved board loads");
+    let saved = lehr_engine::io::load_board(&path).expect("the saved board loads");
     let s = h.state().snapshot().unwrap();
     for (p, q) in saved.board.parts.iter().zip(&s.positions) {
         let at = p.at.unwrap();
@@ -351,13 +351,14 @@ fn finish_reports_in_the_window() {
 }
 
 /// The built-in sample board placed as `lehr place --seed 1` would place it.
-fn placed_sample() -> lehr::model::Design {
-    let d = lehr::io::parse_board(crate::cli::SAMPLE_BOARD, crate::cli::SAMPLE_NAME).unwrap();
-    let opts = lehr::place::AnnealOptions {
+fn placed_sample() -> lehr_engine::model::Design {
+    let d =
+        lehr_engine::io::parse_board(crate::cli::SAMPLE_BOARD, crate::cli::SAMPLE_NAME).unwrap();
+    let opts = lehr_engine::place::AnnealOptions {
         seed: 1,
-        ..lehr::place::AnnealOptions::default()
+        ..lehr_engine::place::AnnealOptions::default()
     };
-    let placed = lehr::place::place(&d, &opts, |_| true).expect("the sample places");
+    let placed = lehr_engine::place::place(&d, &opts, |_| true).expect("the sample places");
     resolve(placed.board).expect("a placed board is valid")
 }
 
@@ -390,7 +391,7 @@ fn route_draws_copper_counts_the_nets_and_saves_it() {
     let dir = tempfile::tempdir().unwrap();
     let path = dir.path().join("dimmer.board.ron");
     h.state_mut().save_to(&path);
-    let saved = lehr::io::load_board(&path).expect("the saved board loads");
+    let saved = lehr_engine::io::load_board(&path).expect("the saved board loads");
     assert_eq!(saved.board.copper, r.result.copper);
 
     // Annealing again moves parts: the copper goes, and the status line says so.
@@ -443,7 +444,7 @@ fn the_rule_panel_lists_a_broken_board_and_shows_where() {
         .violations
         .iter()
         .position(|v| {
-            v.kind == lehr::rules::ViolationKind::CourtyardOverlap
+            v.kind == lehr_engine::rules::ViolationKind::CourtyardOverlap
                 && v.parts.contains(&ref_a)
                 && v.parts.contains(&ref_b)
         })
@@ -579,7 +580,7 @@ fn the_cached_board_picture_matches_the_view_and_redraws_only_on_change() {
     for part in &parts {
         for pad in &part.pads {
             let r = pad.rect;
-            let p = lehr::model::Point::new(
+            let p = lehr_engine::model::Point::new(
                 r.center().x + 0.3 * r.width() / 2.0,
                 r.center().y + 0.3 * r.height() / 2.0,
             );

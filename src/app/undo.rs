@@ -2,7 +2,7 @@
 //! annealer's moves are not edits: undoing a drag puts the part back where it was picked
 //! up, wherever the annealer has taken the other parts since.
 
-use lehr::model::{Point, Quarter};
+use lehr_engine::model::{Point, Quarter};
 
 /// Where a part stood and whether it was locked.
 #[derive(Clone, Copy, Debug, PartialEq)]

@@ -1,9 +1,9 @@
 //! Small boards built by hand for the rules and routing tests (Chip and Custom footprints
 //! only), and a synthetic board generator for timing the router.
 
-use lehr::model::board::{Copper, Keepout, Layers, Net, NetClass, Part, Rules, Track, Via};
-use lehr::model::footprint::PadSpec;
-use lehr::model::{Board, Design, FootprintSpec, Layer, PadShape, Point, Shape, Side};
+use lehr_engine::model::board::{Copper, Keepout, Layers, Net, NetClass, Part, Rules, Track, Via};
+use lehr_engine::model::footprint::PadSpec;
+use lehr_engine::model::{Board, Design, FootprintSpec, Layer, PadShape, Point, Shape, Side};
 
 pub fn p(x: f64, y: f64) -> Point {
     Point::new(x, y)
@@ -161,7 +161,7 @@ pub fn power_class() -> NetClass {
 }
 
 pub fn design(board: Board) -> Design {
-    match lehr::model::resolve(board) {
+    match lehr_engine::model::resolve(board) {
         Ok(d) => d,
         Err(problems) => panic!(
             "test board does not check: {}",

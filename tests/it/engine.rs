@@ -2,11 +2,11 @@
 
 use std::time::{Duration, Instant};
 
-use lehr::engine::{Command, EngineHandle, Event, Snapshot};
-use lehr::model::resolve;
-use lehr::place::{AnnealOptions, generate};
+use lehr_engine::model::resolve;
+use lehr_engine::place::{AnnealOptions, generate};
+use lehr_engine::worker::{Command, EngineHandle, Event, Snapshot};
 
-fn design() -> lehr::model::Design {
+fn design() -> lehr_engine::model::Design {
     resolve(generate::grid_board(6, 2.54, 5)).expect("generated board is valid")
 }
 
@@ -114,8 +114,8 @@ fn reset_starts_a_new_epoch() {
 
 #[test]
 fn conflicts_mark_overlapping_and_outside_parts() {
-    use lehr::engine::{CONFLICT_OUTSIDE, CONFLICT_OVERLAP};
-    use lehr::model::{Point, Quarter};
+    use lehr_engine::model::{Point, Quarter};
+    use lehr_engine::worker::{CONFLICT_OUTSIDE, CONFLICT_OVERLAP};
     let h = EngineHandle::spawn(design(), AnnealOptions::default());
     let s0 = wait_for(&h, |_| true);
     assert_eq!(s0.conflicts.len(), s0.positions.len());
@@ -142,9 +142,9 @@ fn conflicts_mark_overlapping_and_outside_parts() {
 // own tests use (tests/it/boards.rs); what the worker sends is compared with calling the
 // library directly, and with what the copper must mean for the checker.
 
-use lehr::engine::{Checked, Routed};
-use lehr::route::{RouteOptions, route};
-use lehr::rules::{ViolationKind, check};
+use lehr_engine::route::{RouteOptions, route};
+use lehr_engine::rules::{ViolationKind, check};
+use lehr_engine::worker::{Checked, Routed};
 
 /// Waits for the first event that `f` picks, up to 60 s (debug builds route slowly).
 fn wait_event<T>(h: &EngineHandle, what: &str, f: impl Fn(Event) -> Option<T>) -> T {
@@ -175,7 +175,7 @@ fn checked(h: &EngineHandle) -> Box<Checked> {
     })
 }
 
-fn small() -> lehr::model::Design {
+fn small() -> lehr_engine::model::Design {
     super::boards::design(super::boards::small_board())
 }
 
@@ -216,7 +216,7 @@ fn route_on_the_worker_gives_the_libraries_copper_and_keeps_it_until_a_part_move
     // Moving a part by hand drops the copper, and the snapshot says why.
     h.send(Command::MovePart {
         part: 2,
-        at: lehr::model::Point::new(s.positions[2].x + 1.0, s.positions[2].y),
+        at: lehr_engine::model::Point::new(s.positions[2].x + 1.0, s.positions[2].y),
         quarter: s.quarters[2],
     });
     let s2 = wait_for(&h, |s| s.copper_version != version);

@@ -16,12 +16,12 @@ use gerber_parser::gerber_types::{
     Aperture, AttributeDeletionCriterion, Command, DCode, ExtendedCode, FunctionCode, MacroContent,
     MacroDecimal, Net, ObjectAttribute, Operation,
 };
-use lehr::fab::gerber::{GerberLayer, gerber};
-use lehr::fab::{FabOptions, centroid, drill, runlog};
-use lehr::model::board::Layer;
-use lehr::model::{Design, FootprintSpec, PadKind, PadShape, Point, Side, to_board};
-use lehr::place::{self, AnnealOptions, Placed};
-use lehr::route::{RouteOptions, route};
+use lehr_engine::fab::gerber::{GerberLayer, gerber};
+use lehr_engine::fab::{FabOptions, centroid, drill, runlog};
+use lehr_engine::model::board::Layer;
+use lehr_engine::model::{Design, FootprintSpec, PadKind, PadShape, Point, Side, to_board};
+use lehr_engine::place::{self, AnnealOptions, Placed};
+use lehr_engine::route::{RouteOptions, route};
 
 /// The 4.6 coordinate format's resolution, 1 nm (specification 4.2.2), plus rounding.
 const RESOLUTION_MM: f64 = 1e-6;
@@ -41,7 +41,9 @@ fn fixture() -> &'static Fixture {
     static F: OnceLock<Fixture> = OnceLock::new();
     F.get_or_init(|| {
         let path = Path::new(env!("CARGO_MANIFEST_DIR")).join("sample-boards/led-dimmer.board.ron");
-        let mut board = lehr::io::load_board(&path).expect("sample loads").board;
+        let mut board = lehr_engine::io::load_board(&path)
+            .expect("sample loads")
+            .board;
         for p in &mut board.parts {
             if p.reference == "D2" {
                 p.side = Side::Bottom;
@@ -53,7 +55,7 @@ fn fixture() -> &'static Fixture {
                 p.side = Side::Bottom;
             }
         }
-        let design = lehr::model::resolve(board).expect("resolves");
+        let design = lehr_engine::model::resolve(board).expect("resolves");
         let opts = AnnealOptions {
             seed: 5,
             max_moves: Some(30_000),
@@ -61,7 +63,7 @@ fn fixture() -> &'static Fixture {
         };
         let placed = place::place(&design, &opts, |_| true).expect("places");
         assert!(placed.report.legal, "{:?}", placed.report.conflicts);
-        let placed_design = lehr::model::resolve(placed.board.clone()).expect("resolves");
+        let placed_design = lehr_engine::model::resolve(placed.board.clone()).expect("resolves");
         let cancel = AtomicBool::new(false);
         let r = route(
             &placed_design,
@@ -73,7 +75,7 @@ fn fixture() -> &'static Fixture {
         assert!(r.unrouted.is_empty(), "{:?}", r.unrouted);
         let mut board = placed.board.clone();
         board.copper = r.copper;
-        let design = lehr::model::resolve(board).expect("routed board resolves");
+        let design = lehr_engine::model::resolve(board).expect("routed board resolves");
         assert!(!design.board.copper.vias.is_empty(), "the test wants vias");
         Fixture { placed, design }
     })
@@ -591,7 +593,7 @@ fn the_outline_is_one_closed_profile() {
 
 #[test]
 fn an_unrouted_board_gives_pads_only_and_a_warning() {
-    let d = lehr::model::resolve({
+    let d = lehr_engine::model::resolve({
         let mut b = fixture().design.board.clone();
         b.copper = Default::default();
         b
@@ -600,9 +602,9 @@ fn an_unrouted_board_gives_pads_only_and_a_warning() {
     let pic = read_gerber(&gerber(&d, GerberLayer::CopperTop, &FabOptions::default()).unwrap());
     assert!(pic.draws.is_empty());
     assert_eq!(pic.flashes.len(), expected_pads(&d, Layer::Top).len());
-    let w = lehr::fab::warnings(&d);
+    let w = lehr_engine::fab::warnings(&d);
     assert!(w.iter().any(|w| w.contains("not routed")), "{w:?}");
-    assert!(lehr::fab::warnings(&fixture().design).is_empty());
+    assert!(lehr_engine::fab::warnings(&fixture().design).is_empty());
 }
 
 #[test]
@@ -754,7 +756,7 @@ fn centroid_rows_are_the_parts() {
     // A value with a comma and a quote survives the round trip.
     let mut b = d.board.clone();
     b.parts[0].value = "2,2 \"R\"".into();
-    let d2 = lehr::model::resolve(b).unwrap();
+    let d2 = lehr_engine::model::resolve(b).unwrap();
     let text = centroid::centroid_csv(&d2);
     assert_eq!(csv_record(text.lines().nth(1).unwrap())[1], "2,2 \"R\"");
 }
@@ -828,7 +830,7 @@ fn export_writes_every_file_and_nothing_else() {
     let d = &fixture().design;
     let dir = tempfile::tempdir().unwrap();
     let board = dir.path().join("dimmer.routed.board.ron");
-    lehr::io::save_board(&board, &d.board).unwrap();
+    lehr_engine::io::save_board(&board, &d.board).unwrap();
     std::fs::write(dir.path().join("keep.txt"), b"untouched").unwrap();
     let out = lehr_cmd()
         .arg("export")
@@ -1127,7 +1129,7 @@ fn hazardous_boards_export_with_the_caution() {
     board.classes[0].voltage = Some(230.0);
     let dir = tempfile::tempdir().unwrap();
     let path = dir.path().join("mains.board.ron");
-    lehr::io::save_board(&path, &board).unwrap();
+    lehr_engine::io::save_board(&path, &board).unwrap();
     let out = lehr_cmd()
         .arg("export")
         .arg(&path)
@@ -1147,7 +1149,7 @@ fn hazardous_boards_export_with_the_caution() {
 fn unplaced_parts_are_left_out_and_named() {
     // The sample as written: only the four locked parts have positions.
     let path = Path::new(env!("CARGO_MANIFEST_DIR")).join("sample-boards/led-dimmer.board.ron");
-    let d = lehr::io::load_board(&path).unwrap();
+    let d = lehr_engine::io::load_board(&path).unwrap();
     let placed: Vec<&str> = d
         .board
         .parts
@@ -1156,7 +1158,7 @@ fn unplaced_parts_are_left_out_and_named() {
         .map(|p| p.reference.as_str())
         .collect();
     assert_eq!(placed, ["J1", "RV1", "H1", "H2"]);
-    let w = lehr::fab::warnings(&d);
+    let w = lehr_engine::fab::warnings(&d);
     assert!(
         w.iter()
             .any(|w| w.starts_with("6 unplaced parts") && w.ends_with("U1, C1, C2, D1, D2, Q1")),

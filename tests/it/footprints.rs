@@ -10,8 +10,8 @@
 use std::f64::consts::TAU;
 
 use approx::assert_abs_diff_eq;
-use lehr::model::footprint::{COURTYARD_EXCESS, FootprintError, PadSpec};
-use lehr::model::{Footprint, FootprintSpec, Pad, PadKind, PadShape, Point, Rect};
+use lehr_engine::model::footprint::{COURTYARD_EXCESS, FootprintError, PadSpec};
+use lehr_engine::model::{Footprint, FootprintSpec, Pad, PadKind, PadShape, Point, Rect};
 use proptest::prelude::*;
 
 /// Tolerance for positions computed from exact decimal dimensions.

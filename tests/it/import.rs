@@ -11,13 +11,13 @@
 use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
 
-use lehr::io::connections::{detect_delimiter, import_connections, read_records};
-use lehr::io::edif::{import_edif, read_mapping, read_sexprs};
-use lehr::io::import::{ImportProblem, Reason};
-use lehr::io::{ImportError, ImportFiles, ImportOptions, Imported, Location, OutlineSize};
-use lehr::model::names::{ACCEPTED_FORMS, NameError, parse_footprint_name};
-use lehr::model::{Board, FootprintSpec, resolve};
-use lehr::place::{self, AnnealOptions};
+use lehr_engine::io::connections::{detect_delimiter, import_connections, read_records};
+use lehr_engine::io::edif::{import_edif, read_mapping, read_sexprs};
+use lehr_engine::io::import::{ImportProblem, Reason};
+use lehr_engine::io::{ImportError, ImportFiles, ImportOptions, Imported, Location, OutlineSize};
+use lehr_engine::model::names::{ACCEPTED_FORMS, NameError, parse_footprint_name};
+use lehr_engine::model::{Board, FootprintSpec, resolve};
+use lehr_engine::place::{self, AnnealOptions};
 use proptest::prelude::*;
 
 fn netlist_dir() -> PathBuf {
@@ -643,17 +643,17 @@ fn import_file_picks_the_format() {
         parts: None,
         footprints: Some(&dir.join("vent-controller.footprints.txt")),
     };
-    let (format, imp) = lehr::io::import_file(&files, &opts()).unwrap();
-    assert_eq!(format, lehr::io::Format::Edif);
+    let (format, imp) = lehr_engine::io::import_file(&files, &opts()).unwrap();
+    assert_eq!(format, lehr_engine::io::Format::Edif);
     assert_eq!(imp.board.name, "vent-controller");
     // Content decides for an unknown extension.
     assert_eq!(
-        lehr::io::Format::detect(Path::new("n.net"), b"  (edif"),
-        lehr::io::Format::Edif
+        lehr_engine::io::Format::detect(Path::new("n.net"), b"  (edif"),
+        lehr_engine::io::Format::Edif
     );
     assert_eq!(
-        lehr::io::Format::detect(Path::new("n.net"), b"net,part"),
-        lehr::io::Format::Connections
+        lehr_engine::io::Format::detect(Path::new("n.net"), b"net,part"),
+        lehr_engine::io::Format::Connections
     );
     let missing = ImportFiles {
         netlist: &dir.join("no-such-file.csv"),
@@ -661,7 +661,7 @@ fn import_file_picks_the_format() {
         footprints: None,
     };
     assert!(matches!(
-        lehr::io::import_file(&missing, &opts()),
+        lehr_engine::io::import_file(&missing, &opts()),
         Err(ImportError::Io { .. })
     ));
 }
@@ -850,7 +850,10 @@ fn imported_board_places_legally_and_round_trips() {
     let d = resolve(placed.board.clone()).unwrap();
     let outline = d.board.outline.bounds();
     let rects: Vec<_> = (0..d.board.parts.len())
-        .map(|i| d.courtyard(lehr::model::PartId(i as u32)).expect("placed"))
+        .map(|i| {
+            d.courtyard(lehr_engine::model::PartId(i as u32))
+                .expect("placed")
+        })
         .collect();
     for (i, a) in rects.iter().enumerate() {
         assert!(
@@ -868,10 +871,13 @@ fn imported_board_places_legally_and_round_trips() {
     // Save and load: the same board.
     let dir = tempfile::tempdir().unwrap();
     let path = dir.path().join("vent.board.ron");
-    lehr::io::save_board(&path, &imp.board).unwrap();
-    assert_eq!(lehr::io::load_board(&path).unwrap().board, imp.board);
-    lehr::io::save_board(&path, &placed.board).unwrap();
-    assert_eq!(lehr::io::load_board(&path).unwrap().board, placed.board);
+    lehr_engine::io::save_board(&path, &imp.board).unwrap();
+    assert_eq!(lehr_engine::io::load_board(&path).unwrap().board, imp.board);
+    lehr_engine::io::save_board(&path, &placed.board).unwrap();
+    assert_eq!(
+        lehr_engine::io::load_board(&path).unwrap().board,
+        placed.board
+    );
 }
 
 /// `lehr import` itself: the format from the extension, JSON output, the board written;
@@ -905,7 +911,10 @@ fn command_line_import() {
     assert_eq!(v["parts"], 15);
     assert_eq!(v["outline_mm"], serde_json::json!([40.0, 35.0]));
     let saved = std::fs::read(&out).unwrap();
-    assert_eq!(lehr::io::load_board(&out).unwrap().board.parts.len(), 15);
+    assert_eq!(
+        lehr_engine::io::load_board(&out).unwrap().board.parts.len(),
+        15
+    );
     // Without the mapping file: refused, one line, the old file untouched.
     let bad = run(&[
         "import".as_ref(),

@@ -1,19 +1,19 @@
-//! Board files (`lehr::io`): errors located by line and column, checked against marks
+//! Board files (`lehr_engine::io`): errors located by line and column, checked against marks
 //! placed in the test text itself; the example of docs/board-format.md; atomic saving and
 //! round trips; and no panic on arbitrary or damaged input.
 
 use std::fs;
 use std::path::Path;
 
-use lehr::io::{
+use lehr_engine::io::{
     LoadError, Location, board_to_string, load_board, load_board_unchecked, parse_board,
     parse_board_unchecked, save_board,
 };
-use lehr::model::board::{
+use lehr_engine::model::board::{
     Copper, Keepout, Layers, Net, NetClass, Part, PlacementRecord, Rules, Track, Via,
 };
-use lehr::model::footprint::{PadShape, PadSpec};
-use lehr::model::{Board, FootprintSpec, Layer, Point, Rect, Shape, Side, resolve};
+use lehr_engine::model::footprint::{PadShape, PadSpec};
+use lehr_engine::model::{Board, FootprintSpec, Layer, Point, Rect, Shape, Side, resolve};
 use proptest::prelude::*;
 
 const FILE: &str = "t.board.ron";
@@ -296,7 +296,7 @@ fn all_problems_are_listed_in_file_order_and_capped() {
     assert_eq!(problems.len(), 26);
     let text = err.to_string();
     let lines: Vec<&str> = text.lines().collect();
-    assert_eq!(lines.len(), lehr::io::MAX_SHOWN_PROBLEMS + 1);
+    assert_eq!(lines.len(), lehr_engine::io::MAX_SHOWN_PROBLEMS + 1);
     assert!(
         lines[0].starts_with("t.board.ron:3:5: outline: "),
         "{}",
@@ -347,7 +347,7 @@ fn doc_example() -> &'static str {
 fn implemented(spec: &FootprintSpec) -> bool {
     !matches!(
         spec.build(),
-        Err(lehr::model::footprint::FootprintError::BadCustom(m)) if m.contains("not yet available")
+        Err(lehr_engine::model::footprint::FootprintError::BadCustom(m)) if m.contains("not yet available")
     )
 }
 
@@ -422,7 +422,7 @@ fn doc_example_resolves_and_follows_the_bottom_side_convention() {
     // docs/board-format.md, "The bottom side": C1 (0603, bottom, 180 degrees, at
     // (18, 6)) has pad 1 at (17.2, 6).
     let c1 = design.part_id("C1").unwrap();
-    let pad1 = lehr::model::PinRef { part: c1, pad: 0 };
+    let pad1 = lehr_engine::model::PinRef { part: c1, pad: 0 };
     let p = design.pin_position(pad1).unwrap();
     assert!(
         (p.x - 17.2).abs() < 1e-9 && (p.y - 6.0).abs() < 1e-9,

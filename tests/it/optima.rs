@@ -12,14 +12,14 @@
 use std::collections::HashMap;
 use std::time::Duration;
 
-use lehr::engine::{Command, EngineHandle, Event};
-use lehr::model::{Board, Design, Point, resolve};
-use lehr::place::generate::{self, PekoSpec};
-use lehr::place::layout::{Layout, PartMove, Weights};
-use lehr::place::{self, AnnealOptions, Chains, Schedule, Start};
+use lehr_engine::model::{Board, Design, Point, resolve};
+use lehr_engine::place::generate::{self, PekoSpec};
+use lehr_engine::place::layout::{Layout, PartMove, Weights};
+use lehr_engine::place::{self, AnnealOptions, Chains, Schedule, Start};
+use lehr_engine::worker::{Command, EngineHandle, Event};
 
 fn design(b: Board) -> Design {
-    resolve(b).unwrap_or_else(|p| panic!("{}", lehr::model::problems_line(&p)))
+    resolve(b).unwrap_or_else(|p| panic!("{}", lehr_engine::model::problems_line(&p)))
 }
 
 /// The smallest `(w - 1) + (h - 1)` over boxes of `w x h` grid points holding `k` points,
@@ -239,7 +239,7 @@ fn annealing_beats_descent_on_a_multi_pin_board() {
 fn threads_change_nothing() {
     let path = std::path::Path::new(env!("CARGO_MANIFEST_DIR"))
         .join("sample-boards/soil-logger.board.ron");
-    let d = lehr::io::load_board(&path).unwrap();
+    let d = lehr_engine::io::load_board(&path).unwrap();
     let run = |threads| {
         place::place(
             &d,
@@ -268,7 +268,7 @@ fn threads_change_nothing() {
 fn the_engine_gives_the_command_lines_placement() {
     let path =
         std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("sample-boards/led-dimmer.board.ron");
-    let d = lehr::io::load_board(&path).unwrap();
+    let d = lehr_engine::io::load_board(&path).unwrap();
     let opts = AnnealOptions {
         seed: 3,
         max_moves: Some(400_000),
@@ -323,7 +323,7 @@ fn sampler_design() -> Design {
             (name: "N3", pins: ["B.2", "C.2"], weight: 0.7),
         ],
     )"#;
-    lehr::io::parse_board(src, "exchange").unwrap()
+    lehr_engine::io::parse_board(src, "exchange").unwrap()
 }
 
 fn state_key(l: &Layout) -> [u8; 4] {
@@ -343,7 +343,7 @@ fn states(d: &Design, w: &Weights) -> Vec<([u8; 4], f64)> {
         for b in (0..4u8).filter(|&b| b != a) {
             for c in (0..4u8).filter(|&c| c != a && c != b) {
                 for q in 0..4u8 {
-                    let qa = lehr::model::Quarter::from_index(q as usize);
+                    let qa = lehr_engine::model::Quarter::from_index(q as usize);
                     layout.apply(&[PartMove {
                         part: 0,
                         at: at(a),
@@ -353,7 +353,7 @@ fn states(d: &Design, w: &Weights) -> Vec<([u8; 4], f64)> {
                         layout.apply(&[PartMove {
                             part: i,
                             at: at(cell),
-                            quarter: lehr::model::Quarter::R0,
+                            quarter: lehr_engine::model::Quarter::R0,
                         }]);
                     }
                     out.push(([a, b, c, q], layout.full_terms().energy(w)));

@@ -11,14 +11,14 @@
 
 use std::collections::HashMap;
 
-use lehr::model::board::{Board, Copper, Keepout, Layers, Net, Part, Rules, Shape};
-use lehr::model::footprint::PadSpec;
-use lehr::model::{Design, FootprintSpec, PadShape, Point, Quarter, Rect, Side, resolve};
-use lehr::place::anneal::temperature_for_acceptance;
-use lehr::place::layout::{Layout, PartMove, Terms, Weights};
-use lehr::place::mst::{self, Metric};
-use lehr::place::rng::Rng;
-use lehr::place::{
+use lehr_engine::model::board::{Board, Copper, Keepout, Layers, Net, Part, Rules, Shape};
+use lehr_engine::model::footprint::PadSpec;
+use lehr_engine::model::{Design, FootprintSpec, PadShape, Point, Quarter, Rect, Side, resolve};
+use lehr_engine::place::anneal::temperature_for_acceptance;
+use lehr_engine::place::layout::{Layout, PartMove, Terms, Weights};
+use lehr_engine::place::mst::{self, Metric};
+use lehr_engine::place::rng::Rng;
+use lehr_engine::place::{
     self, AnnealOptions, Annealer, ConflictKind, Schedule, generate, legal::AREA_EPS,
 };
 use proptest::prelude::*;
@@ -2037,7 +2037,7 @@ fn fine_pitch_parts_keep_a_fanout_band() {
             },
         ],
     );
-    b.classes.push(lehr::model::board::NetClass {
+    b.classes.push(lehr_engine::model::board::NetClass {
         name: "power".into(),
         track_width: 0.5,
         clearance: 0.3,
@@ -2046,7 +2046,7 @@ fn fine_pitch_parts_keep_a_fanout_band() {
         temp_rise: None,
     });
     let d = design(b);
-    let m = lehr::place::layout::fanout_margins(&d);
+    let m = lehr_engine::place::layout::fanout_margins(&d);
     // Widest of the default rules (track d.board.rules.track_width, clearance 0.2) and
     // the power class (0.5, 0.3).
     let w = d.board.rules.track_width.max(0.5);
@@ -2065,8 +2065,8 @@ fn fine_pitch_parts_keep_a_fanout_band() {
 // and the grid instance placed from the spectral start.
 // ---------------------------------------------------------------------------------------
 
-use lehr::place::Start;
-use lehr::place::spectral::{self, Graph};
+use lehr_engine::place::Start;
+use lehr_engine::place::spectral::{self, Graph};
 
 /// Laplacian eigenvalue of the path P_n: 2 - 2 cos(k pi / n), k = 0..n-1 (Brouwer and
 /// Haemers, "Spectra of Graphs", section 1.4.4, from memory).
@@ -2268,7 +2268,7 @@ fn spectral_start_of_the_grid_is_the_array() {
 fn spectral_start_on_a_sample_board_is_legal_and_keeps_locked_parts() {
     let path = std::path::Path::new(env!("CARGO_MANIFEST_DIR"))
         .join("sample-boards/soil-logger.board.ron");
-    let d = lehr::io::load_board(&path).unwrap();
+    let d = lehr_engine::io::load_board(&path).unwrap();
     assert!(d.board.parts.iter().any(|p| p.locked));
     let a = place::place(&d, &spectral_opts(3), |_| true).unwrap();
     let again = place::place(&d, &spectral_opts(3), |_| true).unwrap();
@@ -2333,7 +2333,7 @@ fn spectral_start_survives_odd_boards() {
 fn both_starts_keep_the_better_run_and_count_both() {
     let path = std::path::Path::new(env!("CARGO_MANIFEST_DIR"))
         .join("sample-boards/signal-driver.board.ron");
-    let d = lehr::io::load_board(&path).unwrap();
+    let d = lehr_engine::io::load_board(&path).unwrap();
     // Both starts share the budget: the first gets the odd move.
     let budget = 400_001u64;
     for seed in 1..=2u64 {

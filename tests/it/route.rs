@@ -3,10 +3,10 @@
 
 use std::sync::atomic::AtomicBool;
 
-use lehr::model::board::{Keepout, Layers};
-use lehr::model::{Board, Design, Shape};
-use lehr::route::{Cell, Maze, RouteOptions, RoutePhase, RouteProgress, RouteResult, route};
-use lehr::rules::{ViolationKind, check};
+use lehr_engine::model::board::{Keepout, Layers};
+use lehr_engine::model::{Board, Design, Shape};
+use lehr_engine::route::{Cell, Maze, RouteOptions, RoutePhase, RouteProgress, RouteResult, route};
+use lehr_engine::rules::{ViolationKind, check};
 use pathfinding::prelude::{astar, dijkstra};
 
 use super::boards::*;
@@ -377,7 +377,7 @@ fn a_class_too_wide_for_a_fine_pitch_part_is_explained() {
                 p(0.65 * i as f64, 0.0),
                 0.35,
                 1.2,
-                lehr::model::PadShape::Rect,
+                lehr_engine::model::PadShape::Rect,
             )
         })
         .collect();

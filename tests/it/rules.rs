@@ -2,13 +2,13 @@
 //! the design-rule checker on small boards with one known defect each.
 
 use approx::assert_abs_diff_eq;
-use lehr::model::board::{Keepout, Layers, NetClass};
-use lehr::model::{Board, Layer, Shape};
-use lehr::rules::width::{
+use lehr_engine::model::board::{Keepout, Layers, NetClass};
+use lehr_engine::model::{Board, Layer, Shape};
+use lehr_engine::rules::width::{
     LayerPosition, SpacingClass, clearance_for_voltage_mm, current_capacity_a, required_area_mil2,
     required_width_mm,
 };
-use lehr::rules::{ViolationKind, check};
+use lehr_engine::rules::{ViolationKind, check};
 
 use super::boards::*;
 
@@ -104,7 +104,7 @@ fn base() -> Board {
 }
 
 /// Checks the board and compares the sorted kinds found with `expected`.
-fn expect(b: Board, expected: &[ViolationKind]) -> Vec<lehr::rules::Violation> {
+fn expect(b: Board, expected: &[ViolationKind]) -> Vec<lehr_engine::rules::Violation> {
     let v = check(&design(b));
     let mut kinds: Vec<ViolationKind> = v.iter().map(|v| v.kind).collect();
     kinds.sort();
@@ -382,7 +382,7 @@ fn violations_serialize_to_json() {
     let v = check(&design(b));
     let json = serde_json::to_string(&v).unwrap();
     assert!(json.contains("\"kind\":\"TrackWidth\""), "{json}");
-    let back: Vec<lehr::rules::Violation> = serde_json::from_str(&json).unwrap();
+    let back: Vec<lehr_engine::rules::Violation> = serde_json::from_str(&json).unwrap();
     assert_eq!(back, v);
 }
 

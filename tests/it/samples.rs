@@ -8,7 +8,7 @@
 
 use std::path::{Path, PathBuf};
 
-use lehr::model::{Design, FootprintSpec};
+use lehr_engine::model::{Design, FootprintSpec};
 
 /// Expected part counts per sample, by file name (lehr's choice).
 const EXPECTED: [(&str, usize, usize); 4] = [
@@ -38,7 +38,8 @@ fn sample_files() -> Vec<PathBuf> {
 }
 
 fn load(path: &Path) -> Design {
-    lehr::io::load_board(path).unwrap_or_else(|e| panic!("{} does not load: {e}", path.display()))
+    lehr_engine::io::load_board(path)
+        .unwrap_or_else(|e| panic!("{} does not load: {e}", path.display()))
 }
 
 /// The expected part range for a sample file; a placed copy (`x.placed.board.ron`) counts
@@ -205,27 +206,30 @@ fn boards_leave_room_to_place() {
 fn place_route_check(
     path: &Path,
     seed: u64,
-) -> (lehr::route::RouteResult, Vec<lehr::rules::Violation>) {
+) -> (
+    lehr_engine::route::RouteResult,
+    Vec<lehr_engine::rules::Violation>,
+) {
     let d = load(path);
-    let opts = lehr::place::AnnealOptions {
+    let opts = lehr_engine::place::AnnealOptions {
         seed,
-        ..lehr::place::AnnealOptions::default()
+        ..lehr_engine::place::AnnealOptions::default()
     };
-    let placed = lehr::place::place(&d, &opts, |_| true)
+    let placed = lehr_engine::place::place(&d, &opts, |_| true)
         .unwrap_or_else(|e| panic!("{}: placement failed: {e}", path.display()));
-    let placed = lehr::model::resolve(placed.board).expect("a placed board stays valid");
+    let placed = lehr_engine::model::resolve(placed.board).expect("a placed board stays valid");
     let cancel = std::sync::atomic::AtomicBool::new(false);
-    let r = lehr::route::route(
+    let r = lehr_engine::route::route(
         &placed,
-        &lehr::route::RouteOptions::default(),
+        &lehr_engine::route::RouteOptions::default(),
         &cancel,
         &mut |_| {},
     )
     .expect("the sample boards fit the routing grid");
     let mut board = placed.board.clone();
     board.copper = r.copper.clone();
-    let routed = lehr::model::resolve(board).expect("routed copper keeps a board valid");
-    (r.clone(), lehr::rules::check(&routed))
+    let routed = lehr_engine::model::resolve(board).expect("routed copper keeps a board valid");
+    (r.clone(), lehr_engine::rules::check(&routed))
 }
 
 /// The routing target of the routing issue: every sample board, placed by `lehr place`
@@ -248,7 +252,7 @@ fn placed_samples_route_completely_and_pass_the_checker() {
             );
             for v in &violations {
                 assert!(
-                    v.kind == lehr::rules::ViolationKind::Unconnected
+                    v.kind == lehr_engine::rules::ViolationKind::Unconnected
                         && v.nets
                             .iter()
                             .all(|n| r.unrouted.iter().any(|u| &u.net == n)),

@@ -1,6 +1,7 @@
-//! lehr: places and routes small circuit boards by simulated annealing.
+//! lehr's engine: places and routes small circuit boards by simulated annealing.
 //!
-//! The library is the engine and knows nothing of any user interface:
+//! The engine knows nothing of any user interface, and its dependency list keeps it so
+//! (no window, command-line or error-reporting crates; CI checks `cargo tree`):
 //! - [`model`]: geometry, parametric footprints, the board file's types and their checks;
 //! - [`io`]: reading and atomically writing board files, with errors located by line and
 //!   column;
@@ -9,14 +10,14 @@
 //! - [`route`]: the grid router (A* with rip-up and reroute by negotiated congestion);
 //! - [`rules`]: the design-rule checker and the IPC-2221 conductor tables;
 //! - [`fab`]: fabrication outputs (Gerber, NC drill, centroid, run log), as text;
-//! - [`engine`]: the worker thread a user interface drives by messages.
+//! - [`worker`]: the worker thread a user interface drives by messages.
 //!
 //! See docs/ARCHITECTURE.md for the map of modules and the invariants.
 
-pub mod engine;
 pub mod fab;
 pub mod io;
 pub mod model;
 pub mod place;
 pub mod route;
 pub mod rules;
+pub mod worker;
