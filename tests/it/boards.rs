@@ -1,24 +1,124 @@
-//! Small boards built by hand for the rules and routing tests (Chip and Custom footprints
-//! only), and a synthetic board generator for timing the router.
+//! The test boards' builders, one set for every test file: parts, nets, outlines and
+//! rules; small boards built by hand for the rules and routing tests (Chip and Custom
+//! footprints only), and a synthetic board generator for timing the router.
 
 use lehr_engine::model::board::{Copper, Keepout, Layers, Net, NetClass, Part, Rules, Track, Via};
 use lehr_engine::model::footprint::PadSpec;
-use lehr_engine::model::{Board, Design, FootprintSpec, Layer, PadShape, Point, Shape, Side};
+use lehr_engine::model::{Board, Design, FootprintSpec, Layer, PadShape, Point, Rect, Shape, Side};
+use lehr_engine::place::rng::Rng;
 
 pub fn p(x: f64, y: f64) -> Point {
     Point::new(x, y)
 }
 
+// ---------------------------------------------------------------------------------------
+// Builders for invented boards of any outline, rules and net weights (the placement
+// tests'); the shorthands below build on these.
+// ---------------------------------------------------------------------------------------
+
+/// A custom footprint: SMD pads (number, x, y) of 0.3 x 0.3 mm and, if given, a courtyard
+/// of `w` x `h` centred on the origin.
+pub fn custom_footprint(pads: &[(&str, f64, f64)], court: Option<(f64, f64)>) -> FootprintSpec {
+    FootprintSpec::Custom {
+        pads: pads
+            .iter()
+            .map(|&(n, x, y)| PadSpec {
+                number: n.to_string(),
+                at: Point::new(x, y),
+                size: (0.3, 0.3),
+                shape: PadShape::Rect,
+                drill: None,
+            })
+            .collect(),
+        courtyard: court.map(|(w, h)| Rect::centered(Point::new(0.0, 0.0), w, h)),
+    }
+}
+
+pub fn part(reference: &str, footprint: FootprintSpec, at: Option<(f64, f64)>) -> Part {
+    Part {
+        reference: reference.to_string(),
+        footprint,
+        value: String::new(),
+        at: at.map(Point::from),
+        rotation: 0.0,
+        side: Side::Top,
+        locked: false,
+    }
+}
+
+pub fn weighted_net(name: &str, pins: &[&str], weight: f64) -> Net {
+    Net {
+        name: name.to_string(),
+        class: None,
+        pins: pins.iter().map(|s| s.to_string()).collect(),
+        weight,
+    }
+}
+
+pub fn rect_shape(x0: f64, y0: f64, x1: f64, y1: f64) -> Shape {
+    Shape::Rect {
+        min: Point::new(x0, y0),
+        max: Point::new(x1, y1),
+    }
+}
+
+pub fn outlined_board(
+    name: &str,
+    outline: Shape,
+    rules: Rules,
+    parts: Vec<Part>,
+    nets: Vec<Net>,
+) -> Board {
+    Board {
+        name: name.to_string(),
+        outline,
+        keepouts: Vec::new(),
+        rules,
+        classes: Vec::new(),
+        parts,
+        nets,
+        copper: Copper::default(),
+        placement: None,
+        optimum: None,
+    }
+}
+
+/// Rules with the given placement grid and clearance, defaults otherwise.
+pub fn rules(grid: f64, clearance: f64) -> Rules {
+    Rules {
+        placement_grid: grid,
+        clearance,
+        ..Rules::default()
+    }
+}
+
+/// Gives every unplaced part of `b` a random position on the `grid` within `bounds`.
+pub fn scatter(b: &mut Board, bounds: Rect, grid: f64, rng: &mut Rng) {
+    let nx = (bounds.width() / grid).floor() as u32 + 1;
+    let ny = (bounds.height() / grid).floor() as u32 + 1;
+    for p in &mut b.parts {
+        if p.at.is_none() {
+            p.at = Some(Point::new(
+                bounds.min.x + f64::from(rng.below(nx)) * grid,
+                bounds.min.y + f64::from(rng.below(ny)) * grid,
+            ));
+        }
+    }
+}
+
+// ---------------------------------------------------------------------------------------
+// Parts, nets and boards for the rules and routing tests.
+// ---------------------------------------------------------------------------------------
+
 /// A chip part ("0603", "0805", ...) at `at`, turned by `rotation` degrees.
 pub fn chip(reference: &str, size: &str, at: Point, rotation: f64) -> Part {
     Part {
-        reference: reference.into(),
-        footprint: FootprintSpec::Chip(size.into()),
-        value: String::new(),
-        at: Some(at),
         rotation,
-        side: Side::Top,
-        locked: false,
+        ..part(
+            reference,
+            FootprintSpec::Chip(size.into()),
+            Some((at.x, at.y)),
+        )
     }
 }
 
@@ -45,18 +145,11 @@ pub fn tht(number: &str, at: Point, d: f64, drill: f64) -> PadSpec {
 }
 
 pub fn custom(reference: &str, pads: Vec<PadSpec>, at: Point) -> Part {
-    Part {
-        reference: reference.into(),
-        footprint: FootprintSpec::Custom {
-            pads,
-            courtyard: None,
-        },
-        value: String::new(),
-        at: Some(at),
-        rotation: 0.0,
-        side: Side::Top,
-        locked: false,
-    }
+    let footprint = FootprintSpec::Custom {
+        pads,
+        courtyard: None,
+    };
+    part(reference, footprint, Some((at.x, at.y)))
 }
 
 /// An 8-pin dual-row SMD part like a SOIC-8 (pitch 1.27, rows 5.4 apart), pins
@@ -94,31 +187,15 @@ pub fn header(reference: &str, n: usize, at: Point) -> Part {
     custom(reference, pads, at)
 }
 
+/// A net of weight 1.
 pub fn net(name: &str, pins: &[&str]) -> Net {
-    Net {
-        name: name.into(),
-        class: None,
-        pins: pins.iter().map(|s| s.to_string()).collect(),
-        weight: 1.0,
-    }
+    weighted_net(name, pins, 1.0)
 }
 
+/// A `w` x `h` mm rectangle from the origin with the default rules.
 pub fn board(w: f64, h: f64, parts: Vec<Part>, nets: Vec<Net>) -> Board {
-    Board {
-        name: "test".into(),
-        outline: Shape::Rect {
-            min: p(0.0, 0.0),
-            max: p(w, h),
-        },
-        keepouts: Vec::new(),
-        rules: Rules::default(),
-        classes: Vec::new(),
-        parts,
-        nets,
-        copper: Copper::default(),
-        placement: None,
-        optimum: None,
-    }
+    let outline = rect_shape(0.0, 0.0, w, h);
+    outlined_board("test", outline, Rules::default(), parts, nets)
 }
 
 pub fn track(net: &str, layer: Layer, width: f64, points: &[Point]) -> Track {

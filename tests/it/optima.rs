@@ -12,15 +12,14 @@
 use std::collections::HashMap;
 use std::time::Duration;
 
-use lehr_engine::model::{Board, Design, Point, resolve};
+use lehr_engine::model::{Board, Design, Point};
 use lehr_engine::place::generate::{self, PekoSpec};
-use lehr_engine::place::layout::{Layout, PartMove, Weights};
+use lehr_engine::place::layout::{Layout, Weights};
 use lehr_engine::place::{self, AnnealOptions, Chains, Schedule, Start};
 use lehr_engine::worker::{Command, EngineHandle, Event};
 
-fn design(b: Board) -> Design {
-    resolve(b).unwrap_or_else(|p| panic!("{}", lehr_engine::model::problems_line(&p)))
-}
+use crate::boards::design;
+use crate::place::sampler::{chi2_critical_001, enumerate_states, state_key};
 
 /// The smallest `(w - 1) + (h - 1)` over boxes of `w x h` grid points holding `k` points,
 /// by brute force over all boxes up to `k x k` (independent of the generator's search).
@@ -326,52 +325,6 @@ fn sampler_design() -> Design {
     lehr_engine::io::parse_board(src, "exchange").unwrap()
 }
 
-fn state_key(l: &Layout) -> [u8; 4] {
-    let cell = |i: u32| {
-        let p = l.position(i);
-        (p.x.round() + 2.0 * p.y.round()) as u8
-    };
-    [cell(0), cell(1), cell(2), l.quarter(0).index() as u8]
-}
-
-/// Every state with its energy, by full recomputation.
-fn states(d: &Design, w: &Weights) -> Vec<([u8; 4], f64)> {
-    let mut layout = Layout::new(d).unwrap();
-    let at = |c: u8| Point::new(f64::from(c % 2), f64::from(c / 2));
-    let mut out = Vec::new();
-    for a in 0..4u8 {
-        for b in (0..4u8).filter(|&b| b != a) {
-            for c in (0..4u8).filter(|&c| c != a && c != b) {
-                for q in 0..4u8 {
-                    let qa = lehr_engine::model::Quarter::from_index(q as usize);
-                    layout.apply(&[PartMove {
-                        part: 0,
-                        at: at(a),
-                        quarter: qa,
-                    }]);
-                    for (i, cell) in [(1, b), (2, c)] {
-                        layout.apply(&[PartMove {
-                            part: i,
-                            at: at(cell),
-                            quarter: lehr_engine::model::Quarter::R0,
-                        }]);
-                    }
-                    out.push(([a, b, c, q], layout.full_terms().energy(w)));
-                }
-            }
-        }
-    }
-    out
-}
-
-/// Upper 0.1 % point of chi-square with `k` degrees of freedom (Wilson-Hilferty, as in
-/// the place tests; from memory, within about 1 % for k > 30).
-fn chi2_critical_001(k: f64) -> f64 {
-    let z = 3.090_232;
-    let c = 2.0 / (9.0 * k);
-    k * (1.0 - c + z * c.sqrt()).powi(3)
-}
-
 /// Three chains at fixed temperatures T, 1.6 T and 2.56 T trade temperatures after
 /// every stage; the states seen at each rung (whatever chain holds it) follow the
 /// Boltzmann distribution at that rung's temperature (chi-square, 95 degrees of
@@ -386,7 +339,7 @@ fn replica_exchange_keeps_each_rung_boltzmann() {
         outside: 10.0,
         keepout: 10.0,
     };
-    let all = states(&d, &w);
+    let all = enumerate_states(&d, &w);
     assert_eq!(all.len(), 96);
     let index: HashMap<[u8; 4], usize> = all.iter().enumerate().map(|(i, s)| (s.0, i)).collect();
     let energies: Vec<f64> = all.iter().map(|s| s.1).collect();
