@@ -352,8 +352,8 @@ fn finish_reports_in_the_window() {
 
 /// The built-in sample board placed as `lehr place --seed 1` would place it.
 fn placed_sample() -> lehr_engine::model::Design {
-    let d =
-        lehr_engine::io::parse_board(crate::cli::SAMPLE_BOARD, crate::cli::SAMPLE_NAME).unwrap();
+    let d = lehr_engine::io::parse_board(crate::shared::SAMPLE_BOARD, crate::shared::SAMPLE_NAME)
+        .unwrap();
     let opts = lehr_engine::place::AnnealOptions {
         seed: 1,
         ..lehr_engine::place::AnnealOptions::default()

@@ -1,16 +1,18 @@
-//! `lehr export`: pictures and fabrication files of a board. The library makes the text
-//! (`lehr_engine::fab`), the window's scene code makes the pictures (`app::svg`); this writes
-//! each file atomically and touches nothing it was not asked to write.
+//! `lehr export`: pictures and fabrication files of a board. The export set
+//! ([`crate::shared::export_set`]) makes every file's bytes, the library the fabrication
+//! text and the window's drawing code the pictures; this writes each file atomically and
+//! touches nothing it was not asked to write.
 
-use std::path::{Path, PathBuf};
+use std::path::PathBuf;
 use std::process::ExitCode;
 
-use anyhow::{Context, Result, anyhow, bail};
+use anyhow::{Result, bail};
 use clap::Args;
 use serde_json::json;
 
-use lehr_engine::fab::gerber::{GerberLayer, gerber};
 use lehr_engine::fab::{self, FabOptions};
+
+use crate::shared::export_set::{Targets, build_files, file_stem, write_files};
 
 #[derive(Args, Debug)]
 pub struct ExportArgs {
@@ -40,111 +42,32 @@ pub struct ExportArgs {
     pub json: bool,
 }
 
-/// The name Gerber files start with: the board file's name without `.board.ron` (or
-/// `.ron`), with anything but letters, digits, `.`, `_` and `-` made `_`.
-pub fn file_stem(board: &Path) -> String {
-    let stem = crate::cli::board_stem(board).unwrap_or("board");
-    let s: String = stem
-        .chars()
-        .map(|c| {
-            if c.is_ascii_alphanumeric() || matches!(c, '.' | '_' | '-') {
-                c
-            } else {
-                '_'
-            }
-        })
-        .collect();
-    if s.is_empty() { "board".into() } else { s }
-}
-
-/// Where each export goes; `None` leaves it out.
-#[derive(Clone, Debug, Default)]
-pub struct Targets {
-    pub svg: Option<PathBuf>,
-    pub png: Option<PathBuf>,
-    /// The folder for the Gerber files, named `STEM-LAYER.gbr`.
-    pub gerber: Option<PathBuf>,
-    pub drill: Option<PathBuf>,
-    pub centroid: Option<PathBuf>,
-}
-
-impl Targets {
-    /// Every fabrication file and the SVG picture in one folder, named after `stem`.
-    pub fn all_in(dir: &Path, stem: &str) -> Targets {
-        Targets {
-            svg: Some(dir.join(format!("{stem}.svg"))),
-            png: None,
-            gerber: Some(dir.to_path_buf()),
-            drill: Some(dir.join(format!("{stem}.drl"))),
-            centroid: Some(dir.join(format!("{stem}-centroid.csv"))),
+impl ExportArgs {
+    /// The files asked for; an error when none is.
+    fn targets(&self) -> Result<Targets> {
+        let targets = Targets {
+            svg: self.svg.clone(),
+            png: self.png.clone(),
+            gerber: self.gerber.clone(),
+            drill: self.drill.clone(),
+            centroid: self.centroid.clone(),
+        };
+        if targets.svg.is_none()
+            && targets.png.is_none()
+            && targets.gerber.is_none()
+            && targets.drill.is_none()
+            && targets.centroid.is_none()
+        {
+            bail!(
+                "nothing to export: give at least one of --svg, --png, --gerber, --drill, --centroid"
+            );
         }
+        Ok(targets)
     }
 }
 
-/// The contents of every file `targets` names, before anything is written (the CLI and
-/// the window both write them with [`write_files`]).
-pub fn build_files(
-    design: &lehr_engine::model::Design,
-    stem: &str,
-    targets: &Targets,
-    opts: &FabOptions,
-) -> Result<Vec<(PathBuf, Vec<u8>)>> {
-    let mut files: Vec<(PathBuf, Vec<u8>)> = Vec::new();
-    if let Some(p) = &targets.svg {
-        files.push((p.clone(), crate::app::svg::board_svg(design).into_bytes()));
-    }
-    if let Some(p) = &targets.png {
-        let bytes = crate::app::svg::board_png(design)
-            .map_err(|e| anyhow!("cannot draw the PNG picture: {e}"))?;
-        files.push((p.clone(), bytes));
-    }
-    if let Some(dir) = &targets.gerber {
-        for layer in GerberLayer::ALL {
-            let text = gerber(design, layer, opts)?;
-            files.push((
-                dir.join(format!("{stem}-{}.gbr", layer.name())),
-                text.into_bytes(),
-            ));
-        }
-    }
-    if let Some(p) = &targets.drill {
-        files.push((p.clone(), fab::drill::drill(design)?.into_bytes()));
-    }
-    if let Some(p) = &targets.centroid {
-        files.push((p.clone(), fab::centroid::centroid_csv(design).into_bytes()));
-    }
-    let names: Vec<&PathBuf> = files.iter().map(|(p, _)| p).collect();
-    for (i, p) in names.iter().enumerate() {
-        if names[..i].contains(p) {
-            bail!("{} is named twice", p.display());
-        }
-    }
-    Ok(files)
-}
-
-/// Makes the Gerber folder if needed, then writes each file atomically.
-pub fn write_files(targets: &Targets, files: &[(PathBuf, Vec<u8>)]) -> Result<()> {
-    if let Some(dir) = &targets.gerber {
-        std::fs::create_dir_all(dir)
-            .with_context(|| format!("cannot make the folder {}", dir.display()))?;
-    }
-    for (path, bytes) in files {
-        lehr_engine::io::write_file(path, bytes)?;
-    }
-    Ok(())
-}
-
-pub fn export_cmd(a: ExportArgs) -> Result<ExitCode> {
-    if a.svg.is_none()
-        && a.png.is_none()
-        && a.gerber.is_none()
-        && a.drill.is_none()
-        && a.centroid.is_none()
-    {
-        bail!(
-            "nothing to export: give at least one of --svg, --png, --gerber, --drill, --centroid"
-        );
-    }
+pub fn run(a: ExportArgs) -> Result<ExitCode> {
+    let targets = a.targets()?;
     let design = lehr_engine::io::load_board(&a.board)?;
     let opts = FabOptions {
         mask_expansion: a.mask_expansion,
@@ -153,14 +76,13 @@ pub fn export_cmd(a: ExportArgs) -> Result<ExitCode> {
     opts.check()?;
 
     // Make every file's contents first: an error then writes nothing at all.
-    let targets = Targets {
-        svg: a.svg.clone(),
-        png: a.png.clone(),
-        gerber: a.gerber.clone(),
-        drill: a.drill.clone(),
-        centroid: a.centroid.clone(),
-    };
-    let files = build_files(&design, &file_stem(&a.board), &targets, &opts)?;
+    let files = build_files(
+        &design,
+        &file_stem(&a.board),
+        &targets,
+        &opts,
+        crate::app::PICTURES,
+    )?;
 
     let warnings = fab::warnings(&design);
     // Hazardous voltages or high currents: the usual caution, before the files go out.
