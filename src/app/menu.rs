@@ -261,7 +261,7 @@ impl LehrApp {
     fn view_menu_ui(&mut self, ui: &mut egui::Ui) {
         self.command_button(ui, Cmd::Fit, true);
         ui.checkbox(&mut self.canvas.labels, "part references");
-        ui.checkbox(&mut self.settings.diagnostics, "Diagnostics")
+        ui.checkbox(&mut self.settings.diagnostics, "diagnostics")
             .on_hover_text(
                 "Show the time lehr's frame code and a whole frame take in the status line",
             );
