@@ -1,12 +1,12 @@
 //! The `lehr` binary: the command-line interface and the window. Glue only: the work
 //! lives in the library.
+//!
+//! Modules: `cli` (the commands) starts `app` (the window) for `lehr open`; both use
+//! `shared` (the sample board, the export set), which uses neither.
 
 mod app;
-mod bench;
 mod cli;
-mod copper_cmds;
-mod export_cmd;
-mod import_cmd;
+mod shared;
 
 use std::process::ExitCode;
 

@@ -269,7 +269,7 @@ impl Controls {
             for (label, v) in [
                 ("wirelength", &mut w.wirelength),
                 ("overlap", &mut w.overlap),
-                ("outside", &mut w.outside),
+                ("outside the board", &mut w.outside),
                 ("keep-out", &mut w.keepout),
             ] {
                 changed |= labelled(ui, label, |ui| {
@@ -288,7 +288,7 @@ impl Controls {
 
 /// The status line: temperature, acceptance, speed, wirelength, conflicts.
 /// `frame_ms` is the time of the app's own frame code and, with a real window, of the
-/// whole frame.
+/// whole frame (both `None` unless View > Diagnostics is on).
 pub fn status_ui(
     ui: &mut egui::Ui,
     snap: Option<&Snapshot>,
@@ -324,7 +324,8 @@ pub fn status_ui(
         let conflicts = s.conflicts.iter().filter(|&&c| c != 0).count();
         ui.label(format!("parts in conflict {conflicts}"));
         ui.separator();
-        ui.label(format!("window {:.2} mm", s.window));
+        ui.label(format!("move range {:.2} mm", s.window))
+            .on_hover_text("The farthest one move shifts a part at this stage of the run");
         for e in extra {
             ui.separator();
             ui.label(e);

@@ -352,8 +352,8 @@ fn finish_reports_in_the_window() {
 
 /// The built-in sample board placed as `lehr place --seed 1` would place it.
 fn placed_sample() -> lehr_engine::model::Design {
-    let d =
-        lehr_engine::io::parse_board(crate::cli::SAMPLE_BOARD, crate::cli::SAMPLE_NAME).unwrap();
+    let d = lehr_engine::io::parse_board(crate::shared::SAMPLE_BOARD, crate::shared::SAMPLE_NAME)
+        .unwrap();
     let opts = lehr_engine::place::AnnealOptions {
         seed: 1,
         ..lehr_engine::place::AnnealOptions::default()
@@ -619,4 +619,38 @@ fn the_cached_board_picture_matches_the_view_and_redraws_only_on_change() {
     h.state_mut().canvas.picture_parts = usize::MAX;
     h.step();
     assert!(h.state().canvas.picture().is_none());
+}
+
+#[test]
+fn the_status_line_names_the_move_range_and_hides_frame_times_until_asked() {
+    let mut h = harness(grid_app());
+    wait_until(&mut h, "the first snapshot", |a| a.snapshot().is_some());
+    h.get_by_label_contains("move range ");
+    h.get_by_label("outside the board");
+    assert!(h.query_by_label_contains("window ").is_none());
+    assert!(!h.state().settings.diagnostics, "off by default");
+    assert!(h.query_by_label_contains("ui ").is_none());
+    h.get_by_label("View").click();
+    h.run();
+    h.get_by_label("diagnostics").click();
+    h.run();
+    assert!(h.state().settings.diagnostics);
+    h.get_by_label_contains("ui ");
+}
+
+#[test]
+fn the_menu_shows_the_shortcut_table_and_the_keys_follow_it() {
+    let mut h = harness(grid_app());
+    wait_until(&mut h, "the first snapshot", |a| a.snapshot().is_some());
+    h.get_by_label("File").click();
+    h.run();
+    // The entry's label and its shortcut text both come from menu::SHORTCUTS.
+    h.get_by_label_contains("Ctrl+Shift+S");
+    h.key_press(egui::Key::Escape);
+    h.step();
+    // Space runs, and pauses a run.
+    h.key_press(egui::Key::Space);
+    wait_until(&mut h, "Space starts the run", running);
+    h.key_press(egui::Key::Space);
+    wait_until(&mut h, "Space pauses the run", |a| !running(a));
 }

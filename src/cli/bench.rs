@@ -3,17 +3,28 @@
 //! are in docs/performance.md.
 
 use std::process::ExitCode;
+use std::sync::atomic::AtomicBool;
 use std::time::Instant;
 
 use anyhow::Result;
+use clap::Args;
 use serde_json::{Value, json};
 
 use lehr_engine::model::{Board, Design, resolve};
 use lehr_engine::place::{
     self, AnnealOptions, Annealer, Placed, Schedule, Start, baseline, generate, thread_count,
 };
+use lehr_engine::route::{RouteOptions, RouteResult};
 
-use crate::cli::BenchArgs;
+#[derive(Args, Debug)]
+pub struct BenchArgs {
+    /// Print one JSON object.
+    #[arg(long)]
+    pub json: bool,
+    /// Smaller, faster runs (for a smoke test; the figures are not the targets').
+    #[arg(long)]
+    pub quick: bool,
+}
 
 /// Prints a line unless the output is JSON.
 struct Out {
@@ -137,20 +148,18 @@ fn median(mut v: Vec<f64>) -> f64 {
     v.get(v.len() / 2).copied().unwrap_or(f64::NAN)
 }
 
-/// Default `lehr place` on boards with a known optimum: the multi-pin boards (filled,
-/// and with half as much room again) and grids from square to four times as long as
-/// wide. Each board is generated with seed s and placed with seed s, s = 1, 2, 3 (one
-/// seed with `--quick`, on smaller boards).
-fn known_optima(args: &BenchArgs, out: &mut Out) -> Result<()> {
-    let seeds: &[u64] = if args.quick { &[1] } else { &[1, 2, 3] };
+/// Makes a board with a known optimum from a seed.
+type Make = Box<dyn Fn(u64) -> Board>;
+
+/// The boards [`known_optima`] places, by name.
+fn optima_boards(quick: bool) -> Vec<(&'static str, Make)> {
     let peko = |rows, cols, slack, s| {
         generate::peko_board(&generate::PekoSpec {
             slack,
             ..generate::PekoSpec::new(rows, cols, s)
         })
     };
-    type Make = Box<dyn Fn(u64) -> Board>;
-    let boards: Vec<(&str, Make)> = if args.quick {
+    if quick {
         vec![
             ("peko144", Box::new(move |s| peko(12, 12, 1.0, s))),
             (
@@ -176,8 +185,16 @@ fn known_optima(args: &BenchArgs, out: &mut Out) -> Result<()> {
                 Box::new(|s| generate::grid_rect_board(15, 60, 2.54, 1.0, s)),
             ),
         ]
-    };
-    for (name, make) in boards {
+    }
+}
+
+/// Default `lehr place` on boards with a known optimum: the multi-pin boards (filled,
+/// and with half as much room again) and grids from square to four times as long as
+/// wide. Each board is generated with seed s and placed with seed s, s = 1, 2, 3 (one
+/// seed with `--quick`, on smaller boards).
+fn known_optima(args: &BenchArgs, out: &mut Out) -> Result<()> {
+    let seeds: &[u64] = if args.quick { &[1] } else { &[1, 2, 3] };
+    for (name, make) in optima_boards(args.quick) {
         let (mut ratios, mut secs) = (Vec::new(), Vec::new());
         let mut legal = true;
         for &s in seeds {
@@ -365,19 +382,19 @@ fn scale(args: &BenchArgs, out: &mut Out) -> Result<()> {
 const ROUTE_SAMPLES: [(&str, &str); 4] = [
     (
         "led_dimmer",
-        include_str!("../sample-boards/led-dimmer.board.ron"),
+        include_str!("../../sample-boards/led-dimmer.board.ron"),
     ),
     (
         "soil_logger",
-        include_str!("../sample-boards/soil-logger.board.ron"),
+        include_str!("../../sample-boards/soil-logger.board.ron"),
     ),
     (
         "signal_driver",
-        include_str!("../sample-boards/signal-driver.board.ron"),
+        include_str!("../../sample-boards/signal-driver.board.ron"),
     ),
     (
         "audio_preamp",
-        include_str!("../sample-boards/audio-preamp.board.ron"),
+        include_str!("../../sample-boards/audio-preamp.board.ron"),
     ),
 ];
 
@@ -388,17 +405,19 @@ const ROUTE_SAMPLES: [(&str, &str); 4] = [
 /// the placement's wirelength and time (`place_<board>_mm`, `place_<board>_seconds`,
 /// seed 1).
 fn route_samples(args: &BenchArgs, out: &mut Out) -> Result<()> {
-    use std::sync::atomic::AtomicBool;
     let seeds: &[u64] = if args.quick { &[1] } else { &[1, 2, 3] };
     for (name, source) in ROUTE_SAMPLES {
         let design = lehr_engine::io::parse_board(source, name)?;
         let (mut worst_seconds, mut worst_fraction, mut most_violations) = (0.0f64, 1.0f64, 0);
         for &seed in seeds {
-            let opts = AnnealOptions {
-                seed,
-                ..AnnealOptions::default()
-            };
-            let placed = place::place(&design, &opts, |_| true)?;
+            let placed = place::place(
+                &design,
+                &AnnealOptions {
+                    seed,
+                    ..AnnealOptions::default()
+                },
+                |_| true,
+            )?;
             if seed == 1 {
                 out.put(
                     format!("place_{name}_mm"),
@@ -409,19 +428,7 @@ fn route_samples(args: &BenchArgs, out: &mut Out) -> Result<()> {
                     json!(placed.report.seconds),
                 );
             }
-            let placed = resolve(placed.board).map_err(problems)?;
-            let cancel = AtomicBool::new(false);
-            let r = lehr_engine::route::route(
-                &placed,
-                &lehr_engine::route::RouteOptions::default(),
-                &cancel,
-                &mut |_| {},
-            )?;
-            let mut board = placed.board.clone();
-            board.copper = r.copper.clone();
-            let routed = resolve(board).map_err(problems)?;
-            let violations = lehr_engine::rules::check(&routed).len();
-            let fraction = r.routed as f64 / r.nets.max(1) as f64;
+            let (r, violations) = route_and_check(placed.board)?;
             if !args.json {
                 println!(
                     "route {name}, seed {seed}: {} of {} nets, {} vias, {:.0} mm, {} passes, \
@@ -433,7 +440,7 @@ fn route_samples(args: &BenchArgs, out: &mut Out) -> Result<()> {
                 }
             }
             worst_seconds = worst_seconds.max(r.seconds);
-            worst_fraction = worst_fraction.min(fraction);
+            worst_fraction = worst_fraction.min(r.routed as f64 / r.nets.max(1) as f64);
             most_violations = most_violations.max(violations);
         }
         out.put(format!("route_{name}_seconds"), json!(worst_seconds));
@@ -445,6 +452,18 @@ fn route_samples(args: &BenchArgs, out: &mut Out) -> Result<()> {
         out.put(format!("route_{name}_seeds"), json!(seeds));
     }
     Ok(())
+}
+
+/// Routes a placed board with the default options and checks the result: the router's
+/// result and the number of broken rules.
+fn route_and_check(placed: Board) -> Result<(RouteResult, usize)> {
+    let placed = resolve(placed).map_err(problems)?;
+    let cancel = AtomicBool::new(false);
+    let r = lehr_engine::route::route(&placed, &RouteOptions::default(), &cancel, &mut |_| {})?;
+    let mut board = placed.board.clone();
+    board.copper = r.copper.clone();
+    let routed = resolve(board).map_err(problems)?;
+    Ok((r, lehr_engine::rules::check(&routed).len()))
 }
 
 fn problems(ps: Vec<lehr_engine::model::Problem>) -> anyhow::Error {

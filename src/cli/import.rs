@@ -33,7 +33,7 @@ pub struct ImportArgs {
     pub json: bool,
 }
 
-pub fn import_cmd(a: ImportArgs) -> Result<ExitCode> {
+pub fn run(a: ImportArgs) -> Result<ExitCode> {
     let files = ImportFiles {
         netlist: &a.file,
         parts: a.parts.as_deref(),

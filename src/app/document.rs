@@ -1,0 +1,287 @@
+//! The document room: the board being edited and its files. Loading, saving, importing
+//! a netlist and exporting pictures and fabrication files, with the file dialogs, the
+//! recent files and the last folder (kept in [`super::Settings`]). Each step tells the
+//! user how it went in the message line; none panics or blocks on the worker.
+
+use std::path::{Path, PathBuf};
+use std::time::{Duration, Instant};
+
+use anyhow::{Result, anyhow};
+
+use lehr_engine::model::Design;
+use lehr_engine::worker::{Command, EngineHandle};
+
+use crate::shared::{self, export_set};
+
+use super::scene::{Palette, Static};
+use super::{Action, Document, LehrApp, Message, caution, export, files};
+
+impl LehrApp {
+    /// The board with the parts where the engine has them now.
+    fn current_board(&self) -> lehr_engine::model::Board {
+        let mut board = match self.snap.as_deref() {
+            Some(s) => lehr_engine::place::board_at(&self.doc.design, &s.positions, &s.quarters),
+            None => self.doc.design.board.clone(),
+        };
+        if let Some(s) = self.snap.as_deref() {
+            for (p, l) in board.parts.iter_mut().zip(&s.locked) {
+                p.locked = *l;
+            }
+        }
+        board
+    }
+
+    /// Replaces the board and starts a new engine on it.
+    fn load(&mut self, design: Design, path: Option<PathBuf>, name: String) {
+        self.engine = EngineHandle::spawn(design.clone(), self.settings.controls.options(None));
+        self.engine
+            .send(Command::SetMovesPerTick(self.settings.controls.speed));
+        self.st = Static::new(&design);
+        self.caution = caution::caution(&design);
+        self.doc = Document {
+            design,
+            path,
+            name,
+            dirty: false,
+        };
+        self.snap = None;
+        self.epoch = 0;
+        self.plots.history.clear();
+        self.controls.weights = None;
+        self.copper.reset();
+        self.copper_version = None;
+        self.undo.clear();
+        self.canvas.reset();
+        self.message = None;
+        self.finishing = false;
+        self.expect_until = Instant::now() + Duration::from_secs(2);
+        self.rebuild_geometry();
+    }
+
+    /// Opens a board file; a problem is shown in the window with file, line and column.
+    pub fn open_path(&mut self, path: &Path) {
+        match lehr_engine::io::load_board(path) {
+            Ok(design) => {
+                files::remember(&mut self.settings.recent, path);
+                self.settings.last_folder = path.parent().map(Path::to_path_buf);
+                self.load(design, Some(path.to_path_buf()), files::short_name(path));
+            }
+            Err(e) => {
+                self.message = Some(Message {
+                    error: true,
+                    text: format!("Could not open the board:\n{e}"),
+                });
+            }
+        }
+    }
+
+    pub(super) fn save_to(&mut self, path: &Path) {
+        let board = self.current_board();
+        match lehr_engine::io::save_board(path, &board) {
+            Ok(()) => {
+                self.doc.dirty = false;
+                self.doc.path = Some(path.to_path_buf());
+                self.doc.name = files::short_name(path);
+                files::remember(&mut self.settings.recent, path);
+                self.settings.last_folder = path.parent().map(Path::to_path_buf);
+                self.message = Some(Message {
+                    error: false,
+                    text: format!("Saved {}", path.display()),
+                });
+            }
+            Err(e) => {
+                self.message = Some(Message {
+                    error: true,
+                    text: format!("Could not save: {e}"),
+                })
+            }
+        }
+    }
+
+    /// Writes a PNG picture of the board as it is now.
+    pub fn export_png(&self, path: &Path, dark: bool) -> Result<()> {
+        let pal = if dark {
+            Palette::dark()
+        } else {
+            Palette::light()
+        };
+        let bytes = export::png(
+            &self.doc.design,
+            &self.st,
+            &self.geom,
+            &pal,
+            40.0,
+            self.canvas.labels,
+        )
+        .map_err(|e| anyhow!(e))?;
+        std::fs::write(path, bytes).map_err(|e| anyhow!("cannot write {}: {e}", path.display()))
+    }
+
+    /// Imports a netlist (with its parts table or footprint mapping when one lies beside
+    /// it, see [`files::companion`]) as a new board that is not saved yet.
+    fn import_netlist(&mut self, path: &Path) {
+        use lehr_engine::io::import::{Format, ImportFiles, ImportOptions, import_file};
+        let format = std::fs::read(path).map(|b| Format::detect(path, &b));
+        let (parts, footprints) = match format {
+            Ok(Format::Connections) => (files::companion(path, "parts.csv"), None),
+            Ok(Format::Edif) => (None, files::companion(path, "footprints.txt")),
+            Err(_) => (None, None),
+        };
+        let files = ImportFiles {
+            netlist: path,
+            parts: parts.as_deref(),
+            footprints: footprints.as_deref(),
+        };
+        let result = import_file(&files, &ImportOptions::default())
+            .map_err(|e| e.to_string())
+            .and_then(|(_, imp)| {
+                lehr_engine::model::resolve(imp.board)
+                    .map(|d| (d, imp.warnings))
+                    .map_err(|ps| {
+                        format!(
+                            "the imported board is not valid: {}",
+                            lehr_engine::model::problems_line(&ps)
+                        )
+                    })
+            });
+        match result {
+            Ok((design, warnings)) => {
+                let name = path
+                    .file_stem()
+                    .and_then(|s| s.to_str())
+                    .unwrap_or("imported")
+                    .to_string();
+                let (n_parts, n_nets) = (design.board.parts.len(), design.board.nets.len());
+                self.load(design, None, name);
+                // A new board: nothing on disk holds it yet.
+                self.doc.dirty = true;
+                self.settings.last_folder = path.parent().map(Path::to_path_buf);
+                let mut text = format!(
+                    "Imported {}: {n_parts} parts, {n_nets} nets. Press Run to place them, then save.",
+                    path.display()
+                );
+                if let Some(w) = warnings.first() {
+                    text.push_str(&format!(" {} warning(s), the first: {w}", warnings.len()));
+                }
+                self.message = Some(Message {
+                    error: !warnings.is_empty(),
+                    text,
+                });
+            }
+            Err(e) => {
+                self.message = Some(Message {
+                    error: true,
+                    text: format!("Could not import: {e}"),
+                })
+            }
+        }
+    }
+
+    /// Writes the Gerber files, the drill program, the centroid list and an SVG picture
+    /// of the board as it stands into `dir`; returns what to tell the user.
+    fn export_fab(&self, dir: &Path) -> Result<String> {
+        let design = lehr_engine::model::resolve(self.current_board()).map_err(|ps| {
+            anyhow!(
+                "the board is not valid as placed: {}",
+                lehr_engine::model::problems_line(&ps)
+            )
+        })?;
+        let stem = export_set::file_stem(Path::new(&format!("{}.board.ron", self.doc.name)));
+        let targets = export_set::Targets::all_in(dir, &stem);
+        let files = export_set::build_files(
+            &design,
+            &stem,
+            &targets,
+            &lehr_engine::fab::FabOptions::default(),
+            super::PICTURES,
+        )?;
+        export_set::write_files(&targets, &files)?;
+        let mut text = format!("Wrote {} files into {}.", files.len(), dir.display());
+        for w in lehr_engine::fab::warnings(&design) {
+            text.push(' ');
+            text.push_str(&w);
+            text.push('.');
+        }
+        Ok(text)
+    }
+
+    fn folder(&self) -> Option<PathBuf> {
+        self.settings.last_folder.clone()
+    }
+
+    /// The file actions (open, save, import, export), once any unsaved changes may go.
+    pub(super) fn apply_file(&mut self, a: Action, ctx: &egui::Context) {
+        match a {
+            Action::Open(Some(path)) => self.open_path(&path),
+            Action::Open(None) => match files::pick_board(self.folder().as_deref()) {
+                Some(p) => self.open_path(&p),
+                None => self.no_dialog(),
+            },
+            Action::OpenSample => self.open_sample(),
+            Action::Save => match self.doc.path.clone() {
+                Some(p) => self.save_to(&p),
+                None => self.apply_file(Action::SaveAs, ctx),
+            },
+            Action::SaveAs => match files::pick_save(self.folder().as_deref(), &self.doc.name) {
+                Some(p) => self.save_to(&p),
+                None => self.no_dialog(),
+            },
+            Action::ExportPng => match files::pick_png(self.folder().as_deref(), &self.doc.name) {
+                Some(p) => {
+                    let dark = ctx.global_style().visuals.dark_mode;
+                    self.message = Some(match self.export_png(&p, dark) {
+                        Ok(()) => Message {
+                            error: false,
+                            text: format!("Wrote {}", p.display()),
+                        },
+                        Err(e) => Message {
+                            error: true,
+                            text: format!("Could not export: {e}"),
+                        },
+                    });
+                }
+                None => self.no_dialog(),
+            },
+            Action::Import(Some(path)) => self.import_netlist(&path),
+            Action::Import(None) => match files::pick_netlist(self.folder().as_deref()) {
+                Some(p) => self.import_netlist(&p),
+                None => self.no_dialog(),
+            },
+            Action::ExportFab(Some(dir)) => {
+                self.message = Some(match self.export_fab(&dir) {
+                    Ok(text) => Message { error: false, text },
+                    Err(e) => Message {
+                        error: true,
+                        text: format!("Could not export: {e:#}"),
+                    },
+                });
+            }
+            Action::ExportFab(None) => match files::pick_folder(self.folder().as_deref()) {
+                Some(d) => self.apply_file(Action::ExportFab(Some(d)), ctx),
+                None => self.no_dialog(),
+            },
+            _ => {}
+        }
+    }
+
+    /// Replaces the board with the built-in sample.
+    fn open_sample(&mut self) {
+        match lehr_engine::io::parse_board(shared::SAMPLE_BOARD, shared::SAMPLE_NAME) {
+            Ok(d) => self.load(d, None, shared::SAMPLE_NAME.to_string()),
+            Err(e) => {
+                self.message = Some(Message {
+                    error: true,
+                    text: e.to_string(),
+                })
+            }
+        }
+    }
+
+    /// A dialog gave no file: cancelled, or no dialog could be shown.
+    fn no_dialog(&mut self) {
+        self.message = Some(Message {
+            error: false,
+            text: "No file chosen. (If no dialog appeared, this desktop has no file-dialog service: open a board with `lehr open FILE` or drop it on the window.)".into(),
+        });
+    }
+}

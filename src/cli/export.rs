@@ -1,0 +1,114 @@
+//! `lehr export`: pictures and fabrication files of a board. The export set
+//! ([`crate::shared::export_set`]) makes every file's bytes, the library the fabrication
+//! text and the window's drawing code the pictures; this writes each file atomically and
+//! touches nothing it was not asked to write.
+
+use std::path::PathBuf;
+use std::process::ExitCode;
+
+use anyhow::{Result, bail};
+use clap::Args;
+use serde_json::json;
+
+use lehr_engine::fab::{self, FabOptions};
+
+use crate::shared::export_set::{Targets, build_files, file_stem, write_files};
+
+#[derive(Args, Debug)]
+pub struct ExportArgs {
+    /// The board file (placed, and routed for copper).
+    pub board: PathBuf,
+    /// Write an SVG picture of the board here.
+    #[arg(long, value_name = "FILE")]
+    pub svg: Option<PathBuf>,
+    /// Write a PNG picture of the board here.
+    #[arg(long, value_name = "FILE")]
+    pub png: Option<PathBuf>,
+    /// Write the Gerber files into this folder (made if missing): NAME-copper-top.gbr,
+    /// NAME-copper-bottom.gbr, NAME-mask-top.gbr, NAME-mask-bottom.gbr, NAME-outline.gbr.
+    #[arg(long, value_name = "DIR")]
+    pub gerber: Option<PathBuf>,
+    /// Write the NC drill program (plated and non-plated sections) here.
+    #[arg(long, value_name = "FILE")]
+    pub drill: Option<PathBuf>,
+    /// Write the centroid (pick-and-place) CSV here.
+    #[arg(long, value_name = "FILE")]
+    pub centroid: Option<PathBuf>,
+    /// Solder mask opening beyond each pad, per side, mm.
+    #[arg(long, default_value_t = fab::DEFAULT_MASK_EXPANSION, value_name = "MM")]
+    pub mask_expansion: f64,
+    /// Print one JSON object: the files written and the warnings.
+    #[arg(long)]
+    pub json: bool,
+}
+
+impl ExportArgs {
+    /// The files asked for; an error when none is.
+    fn targets(&self) -> Result<Targets> {
+        let targets = Targets {
+            svg: self.svg.clone(),
+            png: self.png.clone(),
+            gerber: self.gerber.clone(),
+            drill: self.drill.clone(),
+            centroid: self.centroid.clone(),
+        };
+        if targets.svg.is_none()
+            && targets.png.is_none()
+            && targets.gerber.is_none()
+            && targets.drill.is_none()
+            && targets.centroid.is_none()
+        {
+            bail!(
+                "nothing to export: give at least one of --svg, --png, --gerber, --drill, --centroid"
+            );
+        }
+        Ok(targets)
+    }
+}
+
+pub fn run(a: ExportArgs) -> Result<ExitCode> {
+    let targets = a.targets()?;
+    let design = lehr_engine::io::load_board(&a.board)?;
+    let opts = FabOptions {
+        mask_expansion: a.mask_expansion,
+        ..FabOptions::default()
+    };
+    opts.check()?;
+
+    // Make every file's contents first: an error then writes nothing at all.
+    let files = build_files(
+        &design,
+        &file_stem(&a.board),
+        &targets,
+        &opts,
+        crate::app::PICTURES,
+    )?;
+
+    let warnings = fab::warnings(&design);
+    // Hazardous voltages or high currents: the usual caution, before the files go out.
+    let caution = crate::app::svg::caution(&design);
+    if !a.json {
+        for w in &warnings {
+            eprintln!("lehr: warning: {w}");
+        }
+        if let Some(c) = &caution {
+            eprintln!("lehr: {c}");
+        }
+    }
+    write_files(&targets, &files)?;
+    if a.json {
+        println!(
+            "{}",
+            json!({
+                "written": files.iter().map(|(p, _)| p.display().to_string()).collect::<Vec<_>>(),
+                "warnings": warnings,
+                "caution": caution,
+            })
+        );
+    } else {
+        for (p, _) in &files {
+            println!("wrote {}", p.display());
+        }
+    }
+    Ok(ExitCode::SUCCESS)
+}

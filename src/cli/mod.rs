@@ -1,0 +1,79 @@
+//! Command-line interface: raw flags become rich types here, the library does the work.
+//! This file is the parser and the dispatch; each command lives in its own file.
+
+mod bench;
+mod check;
+mod export;
+mod generate;
+mod import;
+mod open;
+mod place;
+mod route;
+mod width;
+
+use std::path::{Path, PathBuf};
+use std::process::ExitCode;
+
+use anyhow::Result;
+use clap::{Parser, Subcommand};
+
+use crate::shared::board_stem;
+
+#[derive(Parser, Debug)]
+#[command(
+    name = "lehr",
+    version,
+    about = "Places and routes small circuit boards by simulated annealing.",
+    long_about = "Places and routes small circuit boards by simulated annealing.\n\n\
+        Run without a command to open the window on the built-in sample board."
+)]
+struct Cli {
+    #[command(subcommand)]
+    command: Option<Command>,
+}
+
+#[derive(Subcommand, Debug)]
+enum Command {
+    /// Open the window on a board (the built-in sample board when none is given).
+    Open(open::OpenArgs),
+    /// Place every unlocked part of a board and write the placed board.
+    Place(place::PlaceArgs),
+    /// Write a synthetic board.
+    #[command(subcommand)]
+    Generate(generate::GenerateCommand),
+    /// Measure placement speed and quality on generated boards.
+    Bench(bench::BenchArgs),
+    /// Route the nets of a placed board on two layers and write the routed board.
+    Route(route::RouteArgs),
+    /// Check a board's copper and parts against the design rules.
+    Check(check::CheckArgs),
+    /// Track width for a current (IPC-2221).
+    Width(width::WidthArgs),
+    /// Turn a netlist (CSV/TSV connection list or EDIF 2 0 0) into a board file.
+    Import(import::ImportArgs),
+    /// Write pictures and fabrication files (Gerber, NC drill, centroid) of a board.
+    Export(export::ExportArgs),
+}
+
+/// Parses the command line and runs the command.
+pub fn run() -> Result<ExitCode> {
+    match Cli::parse().command {
+        None => open::run_default(),
+        Some(Command::Open(a)) => open::run(a),
+        Some(Command::Place(a)) => place::run(a),
+        Some(Command::Generate(g)) => generate::run(g),
+        Some(Command::Bench(b)) => bench::run(&b),
+        Some(Command::Route(a)) => route::run(a),
+        Some(Command::Check(a)) => check::run(a),
+        Some(Command::Width(a)) => width::run(a),
+        Some(Command::Import(a)) => import::run(a),
+        Some(Command::Export(a)) => export::run(a),
+    }
+}
+
+/// `dir/name.board.ron` -> `dir/name.SUFFIX.board.ron`: where a command writes its result
+/// when no `--out` is given.
+pub fn with_suffix(input: &Path, suffix: &str) -> PathBuf {
+    let stem = board_stem(input).unwrap_or("board");
+    input.with_file_name(format!("{stem}.{suffix}.board.ron"))
+}

@@ -1,0 +1,231 @@
+//! `lehr place`: every unlocked part of a board placed by annealing, the placed board
+//! written, the results printed as text or JSON.
+
+use std::io::IsTerminal;
+use std::path::{Path, PathBuf};
+use std::process::ExitCode;
+use std::time::Duration;
+
+use anyhow::Result;
+use clap::Args;
+use indicatif::{ProgressBar, ProgressStyle};
+use serde_json::{Value, json};
+
+use lehr_engine::model::Design;
+use lehr_engine::place::{self, AnnealOptions, Placed, Schedule, StageReport, Start};
+
+#[derive(Args, Debug)]
+pub struct PlaceArgs {
+    /// The board file (RON, see docs/board-format.md).
+    board: PathBuf,
+    /// Seed of the random generator; the same seed (and --replicas) gives the same
+    /// placement, whatever --threads.
+    #[arg(long, default_value_t = 1)]
+    seed: u64,
+    /// Cooling schedule: geometric, lundy-mees, lam-delosme, huang or descent
+    /// (zero-temperature baseline). Each plans its cooling over the move budget.
+    #[arg(long, default_value = "geometric", value_parser = parse_schedule)]
+    schedule: Schedule,
+    /// The move budget: every move of the run, all starts and chains together; every
+    /// schedule plans to use it up. Default: 25,000 N^(4/3) for N movable parts (1 to
+    /// 150 million), times --effort.
+    #[arg(long)]
+    moves: Option<u64>,
+    /// Multiple of the default move budget (ignored with --moves).
+    #[arg(long, default_value_t = AnnealOptions::default().effort)]
+    effort: f64,
+    /// Fraction of sampled uphill moves accepted at the start temperature (the
+    /// temperature is solved for from the samples).
+    #[arg(long, default_value_t = AnnealOptions::default().start_acceptance)]
+    start_acceptance: f64,
+    /// Temperature stages over the budget.
+    #[arg(long, default_value_t = AnnealOptions::default().stages)]
+    stages: u32,
+    /// Annealing chains per start, trading temperatures (replica exchange); they share
+    /// the move budget.
+    #[arg(long, default_value_t = AnnealOptions::default().replicas)]
+    replicas: u32,
+    /// Threads to run the chains on (default: one per core); never changes the result.
+    #[arg(long, default_value_t = 0)]
+    threads: usize,
+    /// Ignore the file's positions of unlocked parts and start from a random spread.
+    #[arg(long)]
+    scatter: bool,
+    /// Place clusters of strongly connected parts first, then the parts (given start
+    /// only, one chain).
+    #[arg(long)]
+    multilevel: bool,
+    /// Where the parts start: given (the file's positions, random spots for unplaced
+    /// parts), spectral (an analytical placement, then a cool anneal; ignores --scatter
+    /// and --multilevel) or both (one run from each, half the budget each, side by side
+    /// on the cores; the better result is kept).
+    #[arg(long, default_value = "both", value_parser = parse_start)]
+    start: Start,
+    /// Where to write the placed board (default: NAME.placed.board.ron beside the input).
+    #[arg(long)]
+    out: Option<PathBuf>,
+    /// Print one JSON object with the results instead of text.
+    #[arg(long)]
+    json: bool,
+    /// Also write the run log (one CSV row per annealing stage) here.
+    #[arg(long, value_name = "FILE")]
+    log: Option<PathBuf>,
+}
+
+fn parse_schedule(s: &str) -> Result<Schedule, String> {
+    s.parse()
+}
+
+fn parse_start(s: &str) -> Result<Start, String> {
+    s.parse()
+}
+
+pub fn run(a: PlaceArgs) -> Result<ExitCode> {
+    let design = lehr_engine::io::load_board(&a.board)?;
+    let opts = a.options();
+    lehr_engine::place::options::check_options(&opts)?;
+    let out = a
+        .out
+        .clone()
+        .unwrap_or_else(|| super::with_suffix(&a.board, "placed"));
+    if !a.json {
+        eprintln!(
+            "placing {} ({} parts, {} nets) with {}, seed {}",
+            a.board.display(),
+            design.board.parts.len(),
+            design.board.nets.len(),
+            opts.schedule,
+            opts.seed
+        );
+    }
+    let optimum = design.board.optimum.as_ref().map(|o| o.wirelength_mm);
+    let placed = run_place(&design, &opts, !a.json)?;
+    lehr_engine::io::save_board(&out, &placed.board)?;
+    if let Some(log) = &a.log {
+        lehr_engine::io::write_file(
+            log,
+            lehr_engine::fab::runlog::run_log(&placed.history).as_bytes(),
+        )?;
+    }
+    if a.json {
+        println!("{}", report_json(&placed, &out, optimum));
+    } else {
+        print_report(&placed, Some(&out), optimum);
+    }
+    Ok(if placed.report.legal {
+        ExitCode::SUCCESS
+    } else {
+        ExitCode::from(2)
+    })
+}
+
+impl PlaceArgs {
+    /// The annealing options the flags ask for (not yet checked).
+    fn options(&self) -> AnnealOptions {
+        AnnealOptions {
+            seed: self.seed,
+            schedule: self.schedule,
+            max_moves: self.moves,
+            effort: self.effort,
+            start_acceptance: self.start_acceptance,
+            stages: self.stages,
+            replicas: self.replicas,
+            threads: self.threads,
+            scatter: self.scatter,
+            multilevel: self.multilevel,
+            start: self.start,
+            ..AnnealOptions::default()
+        }
+    }
+}
+
+/// The results as one JSON object (`--json`).
+fn report_json(placed: &Placed, out: &Path, optimum: Option<f64>) -> Value {
+    let r = &placed.report;
+    json!({
+        "energy": r.energy,
+        "wirelength_mm": r.wirelength_mm,
+        "annealed_wirelength_mm": r.annealed_wirelength_mm,
+        "overlap_mm2": r.overlap_mm2,
+        "outside_mm2": r.outside_mm2,
+        "keepout_mm2": r.keepout_mm2,
+        "legal": r.legal,
+        "conflicts": r.conflicts.iter().map(|c| c.to_string()).collect::<Vec<_>>(),
+        "moves": r.moves,
+        "accepted": r.accepted,
+        "stages": r.stages,
+        "start_temperature": r.start_temperature,
+        "seconds": r.seconds,
+        "moves_per_second": r.moves_per_second,
+        "seed": r.seed,
+        "schedule": r.schedule,
+        "start": r.start,
+        "replicas": r.replicas,
+        "exchanges_tried": r.exchanges_tried,
+        "exchanges_taken": r.exchanges_taken,
+        "optimum_mm": optimum,
+        "ratio_to_optimum": optimum.map(|o| r.wirelength_mm / o),
+        "out": out.display().to_string(),
+    })
+}
+
+/// Runs a placement, with a progress line on a terminal.
+fn run_place(design: &Design, opts: &AnnealOptions, progress: bool) -> Result<Placed> {
+    let bar = if progress && std::io::stderr().is_terminal() {
+        let movable = design.board.parts.iter().filter(|p| !p.locked).count();
+        let budget = opts
+            .max_moves
+            .unwrap_or_else(|| place::default_budget(movable, opts.effort));
+        let bar = ProgressBar::new(budget).with_style(
+            ProgressStyle::with_template("{bar:30} {percent:>3}% {elapsed} {msg}")
+                .expect("static template"),
+        );
+        bar.enable_steady_tick(Duration::from_millis(120));
+        bar
+    } else {
+        ProgressBar::hidden()
+    };
+    let placed = place::place(design, opts, |r: &StageReport| {
+        bar.set_position(r.moves);
+        bar.set_message(format!(
+            "stage {}  T {:.4}  E {:.2}  accepted {:.0}%  moves {}",
+            r.stage,
+            r.temperature,
+            r.energy,
+            100.0 * r.acceptance,
+            r.moves
+        ));
+        true
+    })?;
+    bar.finish_and_clear();
+    Ok(placed)
+}
+
+fn print_report(placed: &Placed, out: Option<&Path>, optimum: Option<f64>) {
+    let r = &placed.report;
+    println!(
+        "{} schedule, seed {}, {} chain(s) per start: {} moves ({} accepted) in {:.2} s, {:.0} moves/s; kept the run from the {} start",
+        r.schedule, r.seed, r.replicas, r.moves, r.accepted, r.seconds, r.moves_per_second, r.start
+    );
+    println!(
+        "wirelength {:.2} mm, overlap {:.4} mm^2, outside {:.4} mm^2, keep-out {:.4} mm^2",
+        r.wirelength_mm, r.overlap_mm2, r.outside_mm2, r.keepout_mm2
+    );
+    if let Some(o) = optimum {
+        println!(
+            "the board's known optimum is {o:.2} mm: this placement is {:.4} times it",
+            r.wirelength_mm / o
+        );
+    }
+    if r.legal {
+        println!("legal: every part inside the board, clear of keep-outs, no overlaps");
+    } else {
+        println!("NOT legal, {} conflicts:", r.conflicts.len());
+        for c in &r.conflicts {
+            println!("  {c}");
+        }
+    }
+    if let Some(out) = out {
+        println!("wrote {}", out.display());
+    }
+}

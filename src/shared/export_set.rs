@@ -1,0 +1,118 @@
+//! The export set: which files an export of a board writes and their bytes, made before
+//! anything is written so that an error writes nothing. `lehr export` and the window's
+//! "Export fabrication files" both build and write it here. The fabrication text comes from
+//! `lehr_engine::fab`; the pictures from the window's drawing code, passed in as
+//! [`Pictures`] (this module sits below the window and may not import it).
+
+use std::path::{Path, PathBuf};
+
+use anyhow::{Context, Result, anyhow, bail};
+
+use lehr_engine::fab::gerber::{GerberLayer, gerber};
+use lehr_engine::fab::{self, FabOptions};
+use lehr_engine::model::Design;
+
+/// The name Gerber files start with: the board file's name without `.board.ron` (or
+/// `.ron`), with anything but letters, digits, `.`, `_` and `-` made `_`.
+pub fn file_stem(board: &Path) -> String {
+    let stem = super::board_stem(board).unwrap_or("board");
+    let s: String = stem
+        .chars()
+        .map(|c| {
+            if c.is_ascii_alphanumeric() || matches!(c, '.' | '_' | '-') {
+                c
+            } else {
+                '_'
+            }
+        })
+        .collect();
+    if s.is_empty() { "board".into() } else { s }
+}
+
+/// Where each export goes; `None` leaves it out.
+#[derive(Clone, Debug, Default)]
+pub struct Targets {
+    pub svg: Option<PathBuf>,
+    pub png: Option<PathBuf>,
+    /// The folder for the Gerber files, named `STEM-LAYER.gbr`.
+    pub gerber: Option<PathBuf>,
+    pub drill: Option<PathBuf>,
+    pub centroid: Option<PathBuf>,
+}
+
+impl Targets {
+    /// Every fabrication file and the SVG picture in one folder, named after `stem`.
+    pub fn all_in(dir: &Path, stem: &str) -> Targets {
+        Targets {
+            svg: Some(dir.join(format!("{stem}.svg"))),
+            png: None,
+            gerber: Some(dir.to_path_buf()),
+            drill: Some(dir.join(format!("{stem}.drl"))),
+            centroid: Some(dir.join(format!("{stem}-centroid.csv"))),
+        }
+    }
+}
+
+/// How the pictures of a board are drawn: handed in by the caller (the window's drawing
+/// code), so that this module needs nothing above it.
+#[derive(Clone, Copy)]
+pub struct Pictures {
+    /// The SVG picture's text.
+    pub svg: fn(&Design) -> String,
+    /// The PNG picture's bytes, or why it could not be drawn.
+    pub png: fn(&Design) -> Result<Vec<u8>, String>,
+}
+
+/// The contents of every file `targets` names, before anything is written (the CLI and
+/// the window both write them with [`write_files`]).
+pub fn build_files(
+    design: &Design,
+    stem: &str,
+    targets: &Targets,
+    opts: &FabOptions,
+    pictures: Pictures,
+) -> Result<Vec<(PathBuf, Vec<u8>)>> {
+    let mut files: Vec<(PathBuf, Vec<u8>)> = Vec::new();
+    if let Some(p) = &targets.svg {
+        files.push((p.clone(), (pictures.svg)(design).into_bytes()));
+    }
+    if let Some(p) = &targets.png {
+        let bytes =
+            (pictures.png)(design).map_err(|e| anyhow!("cannot draw the PNG picture: {e}"))?;
+        files.push((p.clone(), bytes));
+    }
+    if let Some(dir) = &targets.gerber {
+        for layer in GerberLayer::ALL {
+            let text = gerber(design, layer, opts)?;
+            files.push((
+                dir.join(format!("{stem}-{}.gbr", layer.name())),
+                text.into_bytes(),
+            ));
+        }
+    }
+    if let Some(p) = &targets.drill {
+        files.push((p.clone(), fab::drill::drill(design)?.into_bytes()));
+    }
+    if let Some(p) = &targets.centroid {
+        files.push((p.clone(), fab::centroid::centroid_csv(design).into_bytes()));
+    }
+    let names: Vec<&PathBuf> = files.iter().map(|(p, _)| p).collect();
+    for (i, p) in names.iter().enumerate() {
+        if names[..i].contains(p) {
+            bail!("{} is named twice", p.display());
+        }
+    }
+    Ok(files)
+}
+
+/// Makes the Gerber folder if needed, then writes each file atomically.
+pub fn write_files(targets: &Targets, files: &[(PathBuf, Vec<u8>)]) -> Result<()> {
+    if let Some(dir) = &targets.gerber {
+        std::fs::create_dir_all(dir)
+            .with_context(|| format!("cannot make the folder {}", dir.display()))?;
+    }
+    for (path, bytes) in files {
+        lehr_engine::io::write_file(path, bytes)?;
+    }
+    Ok(())
+}
