@@ -1,5 +1,5 @@
 //! `lehr export`: pictures and fabrication files of a board. The library makes the text
-//! (`lehr_engine::fab`), the window's scene code makes the pictures (`app::svg`); this writes
+//! (`lehr_engine::fab`) and the pictures (`lehr_engine::drawing`); this writes
 //! each file atomically and touches nothing it was not asked to write.
 
 use std::path::{Path, PathBuf};
@@ -91,10 +91,13 @@ pub fn build_files(
 ) -> Result<Vec<(PathBuf, Vec<u8>)>> {
     let mut files: Vec<(PathBuf, Vec<u8>)> = Vec::new();
     if let Some(p) = &targets.svg {
-        files.push((p.clone(), crate::app::svg::board_svg(design).into_bytes()));
+        files.push((
+            p.clone(),
+            lehr_engine::drawing::board_svg(design).into_bytes(),
+        ));
     }
     if let Some(p) = &targets.png {
-        let bytes = crate::app::svg::board_png(design)
+        let bytes = lehr_engine::drawing::board_png(design)
             .map_err(|e| anyhow!("cannot draw the PNG picture: {e}"))?;
         files.push((p.clone(), bytes));
     }
@@ -164,7 +167,7 @@ pub fn export_cmd(a: ExportArgs) -> Result<ExitCode> {
 
     let warnings = fab::warnings(&design);
     // Hazardous voltages or high currents: the usual caution, before the files go out.
-    let caution = crate::app::svg::caution(&design);
+    let caution = lehr_engine::drawing::caution::caution(&design);
     if !a.json {
         for w in &warnings {
             eprintln!("lehr: warning: {w}");

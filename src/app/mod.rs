@@ -13,14 +13,10 @@ mod canvas;
 mod caution;
 mod controls;
 mod copper;
-mod export;
 mod files;
 mod framebench;
 mod history;
 mod plots;
-mod raster;
-mod scene;
-pub(crate) mod svg;
 mod undo;
 
 #[cfg(test)]
@@ -43,8 +39,8 @@ use canvas::Canvas;
 use controls::{ControlSettings, Controls};
 use copper::CopperPanel;
 pub use framebench::measure_frames;
+use lehr_engine::drawing::{BoardFacts, Palette, SceneGeometry};
 use plots::Plots;
-use scene::{Geometry, Palette, Static};
 use undo::{Edit, PartState, UndoStack};
 
 /// Repaint interval while the engine runs (about 30 pictures a second).
@@ -207,11 +203,11 @@ pub fn median(mut v: Vec<f64>) -> Option<f64> {
 pub struct LehrApp {
     pub settings: Settings,
     doc: Document,
-    st: Static,
+    st: BoardFacts,
     engine: EngineHandle,
     snap: Option<Arc<Snapshot>>,
     epoch: u64,
-    geom: Geometry,
+    geom: SceneGeometry,
     geom_stale: bool,
     canvas: Canvas,
     controls: Controls,
@@ -253,7 +249,7 @@ impl LehrApp {
         let mut canvas = Canvas::default();
         canvas.labels = settings.labels;
         let mut app = LehrApp {
-            st: Static::new(&design),
+            st: BoardFacts::new(&design),
             caution: caution::caution(&design),
             doc: Document {
                 design,
@@ -265,7 +261,7 @@ impl LehrApp {
             engine,
             snap: None,
             epoch: 0,
-            geom: Geometry::default(),
+            geom: SceneGeometry::default(),
             geom_stale: true,
             canvas,
             controls: Controls::default(),
@@ -490,7 +486,7 @@ impl LehrApp {
     }
 
     fn rebuild_geometry(&mut self) {
-        self.geom = Geometry::build(
+        self.geom = SceneGeometry::build(
             &self.doc.design,
             &self.st,
             self.snap.as_deref(),
@@ -540,7 +536,7 @@ impl LehrApp {
         self.engine = EngineHandle::spawn(design.clone(), self.settings.controls.options(None));
         self.engine
             .send(Command::SetMovesPerTick(self.settings.controls.speed));
-        self.st = Static::new(&design);
+        self.st = BoardFacts::new(&design);
         self.caution = caution::caution(&design);
         self.doc = Document {
             design,
@@ -609,7 +605,7 @@ impl LehrApp {
         } else {
             Palette::light()
         };
-        let bytes = export::png(
+        let bytes = lehr_engine::drawing::png::to_png(
             &self.doc.design,
             &self.st,
             &self.geom,
@@ -1431,7 +1427,7 @@ impl eframe::App for Window {
         } else {
             Palette::light()
         };
-        pal.background.to_normalized_gamma_f32()
+        canvas::color32(pal.background).to_normalized_gamma_f32()
     }
 
     fn ui(&mut self, ui: &mut egui::Ui, frame: &mut eframe::Frame) {
