@@ -85,8 +85,9 @@ const fn mul_frac(v: u8, a: u8) -> u8 {
 }
 
 /// Colours of the board picture. Chosen for lehr: a dark-green board on the dark theme, a
-/// pale sage board on the light one; copper in warm gold, the bottom side in teal, wiring
-/// still to do in grey, conflicts in red, the selection in yellow. Every colour of a palette is
+/// pale sage board on the light one; copper of the top side in warm gold and copper
+/// orange, the bottom side in teal (its pads and, a shade apart, its tracks), wiring still
+/// to do in grey, conflicts in red, the selection in yellow. Every colour of a palette is
 /// distinct, so a picture can be read by colour alone.
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct Palette {
@@ -138,7 +139,8 @@ impl Palette {
             hovered: Colour::rgb(0xee, 0xf2, 0xf4),
             label: Colour::rgb(0xe4, 0xe8, 0xe0),
             track_top: Colour::rgba(0xd9, 0x74, 0x4c, 210),
-            track_bottom: Colour::rgba(0x52, 0x8e, 0xdc, 190),
+            // A deeper sea green than the bottom pads, so pads stand out on their tracks.
+            track_bottom: Colour::rgba(0x2a, 0x8c, 0x77, 190),
             via: Colour::rgb(0xb8, 0xbc, 0xc0),
         }
     }
@@ -166,7 +168,8 @@ impl Palette {
             hovered: Colour::rgb(0x10, 0x14, 0x18),
             label: Colour::rgb(0x1c, 0x22, 0x26),
             track_top: Colour::rgba(0xc0, 0x50, 0x28, 200),
-            track_bottom: Colour::rgba(0x28, 0x60, 0xc0, 180),
+            // A deeper sea green than the bottom pads, dark on the pale board.
+            track_bottom: Colour::rgba(0x0a, 0x54, 0x45, 180),
             via: Colour::rgb(0x60, 0x66, 0x6c),
         }
     }
@@ -231,6 +234,29 @@ mod tests {
         );
     }
 
+    /// The straight channels of a colour, for comparing hues.
+    fn rgb(c: Colour) -> [f64; 3] {
+        let [r, g, b, _] = c.unmultiplied();
+        [f64::from(r), f64::from(g), f64::from(b)]
+    }
+
+    /// The hue in degrees and the lightness (0 to 1) of a colour.
+    fn hue_lightness(c: Colour) -> (f64, f64) {
+        let [r, g, b] = rgb(c).map(|v| v / 255.0);
+        let (max, min) = (r.max(g).max(b), r.min(g).min(b));
+        let d = max - min;
+        let h = if d == 0.0 {
+            0.0
+        } else if max == r {
+            60.0 * ((g - b) / d).rem_euclid(6.0)
+        } else if max == g {
+            60.0 * ((b - r) / d + 2.0)
+        } else {
+            60.0 * ((r - g) / d + 4.0)
+        };
+        (h, (max + min) / 2.0)
+    }
+
     #[test]
     fn every_colour_of_a_palette_is_distinct() {
         for pal in [Palette::light(), Palette::dark()] {
@@ -239,6 +265,32 @@ mod tests {
                 for b in &c[i + 1..] {
                     assert_ne!(a.1, b.1, "{} and {} share a colour", a.0, b.0);
                 }
+            }
+        }
+    }
+
+    #[test]
+    fn bottom_copper_is_teal_and_top_copper_is_warm() {
+        for pal in [Palette::light(), Palette::dark()] {
+            let (pad_hue, pad_l) = hue_lightness(pal.pad_bottom);
+            let (track_hue, track_l) = hue_lightness(pal.track_bottom);
+            // The teal family: between green and blue, near the bottom pads' hue.
+            assert!((150.0..=190.0).contains(&track_hue), "{track_hue}");
+            assert!((track_hue - pad_hue).abs() < 20.0, "{track_hue} {pad_hue}");
+            // A shade apart from the pads, and from the vias and the board.
+            assert!((track_l - pad_l).abs() > 0.1, "{track_l} {pad_l}");
+            for other in [pal.via, pal.board, pal.background, pal.highlight] {
+                let d: f64 = rgb(pal.track_bottom)
+                    .iter()
+                    .zip(rgb(other))
+                    .map(|(a, b)| (a - b).powi(2))
+                    .sum::<f64>()
+                    .sqrt();
+                assert!(d > 60.0, "{d}");
+            }
+            for warm in [pal.track_top, pal.pad_top] {
+                let (h, _) = hue_lightness(warm);
+                assert!((10.0..=45.0).contains(&h), "{h}");
             }
         }
     }
