@@ -10,10 +10,13 @@
 //! - [`route`]: the grid router (A* with rip-up and reroute by negotiated congestion);
 //! - [`rules`]: the design-rule checker and the IPC-2221 conductor tables;
 //! - [`fab`]: fabrication outputs (Gerber, NC drill, centroid, run log), as text;
+//! - [`drawing`]: the board picture (colours, what is drawn, SVG and PNG pens) and the
+//!   safety caution shown beside it;
 //! - [`worker`]: the worker thread a user interface drives by messages.
 //!
 //! See docs/ARCHITECTURE.md for the map of modules and the invariants.
 
+pub mod drawing;
 pub mod fab;
 pub mod io;
 pub mod model;

@@ -4,12 +4,19 @@
 
 use egui::{Color32, Mesh, Pos2, Sense, Shape, Vec2, pos2};
 
+use lehr_engine::drawing::raster;
+use lehr_engine::drawing::scene::triangulate;
+use lehr_engine::drawing::{BoardFacts, Colour, Item, Marks, Palette, Pen, SceneGeometry};
 use lehr_engine::model::{Design, Point, Quarter, Rect};
 
 use super::Action;
-use super::raster;
-use super::scene::{self, Geometry, Marks, Palette, Pen, Static};
 use super::undo::PartState;
+
+/// The colour as egui takes it (both are premultiplied sRGB, byte for byte).
+pub fn color32(c: Colour) -> Color32 {
+    let [r, g, b, a] = c.to_premultiplied();
+    Color32::from_rgba_premultiplied(r, g, b, a)
+}
 
 /// A part being dragged by hand.
 #[derive(Clone, Copy, Debug)]
@@ -89,8 +96,8 @@ struct PictureKey {
     pixels: [usize; 2],
     ppp: f32,
     marks: Marks,
-    background: Color32,
-    board: Color32,
+    background: Colour,
+    board: Colour,
 }
 
 impl Default for Canvas {
@@ -198,18 +205,13 @@ impl Canvas {
 
     /// The colour of the cached picture at a screen point.
     #[cfg(test)]
-    pub fn picture_pixel(&self, at: Pos2, ppp: f32) -> Option<Color32> {
+    pub fn picture_pixel(&self, at: Pos2, ppp: f32) -> Option<Colour> {
         let p = self.picture.as_ref()?;
         let rect = self.last_rect?;
         let x = ((at.x - rect.min.x) * ppp) as u32;
         let y = ((at.y - rect.min.y) * ppp) as u32;
         let c = p.pixmap.pixel(x, y)?.demultiply();
-        Some(Color32::from_rgba_unmultiplied(
-            c.red(),
-            c.green(),
-            c.blue(),
-            c.alpha(),
-        ))
+        Some(Colour::rgba(c.red(), c.green(), c.blue(), c.alpha()))
     }
 
     /// Draws the board into the cached picture if what it shows changed, and returns the
@@ -222,8 +224,8 @@ impl Canvas {
         rect: egui::Rect,
         view: &View,
         design: &Design,
-        st: &Static,
-        g: &Geometry,
+        st: &BoardFacts,
+        g: &SceneGeometry,
         pal: &Palette,
         marks: &Marks,
     ) -> Option<(egui::TextureId, Vec2)> {
@@ -305,8 +307,8 @@ impl Canvas {
         &mut self,
         ui: &mut egui::Ui,
         design: &Design,
-        st: &Static,
-        g: &Geometry,
+        st: &BoardFacts,
+        g: &SceneGeometry,
         pal: &Palette,
         actions: &mut Vec<Action>,
     ) {
@@ -430,12 +432,12 @@ impl Canvas {
             );
             if let Some(p) = &self.picture {
                 for (at, size, c, s) in &p.labels {
-                    label(&painter, view.screen_from_board(*at), *size, *c, s);
+                    label(&painter, view.screen_from_board(*at), *size, color32(*c), s);
                 }
             }
         } else {
             if self.paint_background {
-                painter.rect_filled(rect, 0.0, pal.background);
+                painter.rect_filled(rect, 0.0, color32(pal.background));
             }
             let mut pen = EguiPen {
                 view,
@@ -443,14 +445,14 @@ impl Canvas {
                 mesh: Mesh::default(),
                 texts: Vec::new(),
             };
-            scene::draw(&mut pen, design, st, g, pal, &marks);
+            lehr_engine::drawing::draw(&mut pen, design, st, g, pal, &marks);
             painter.add(Shape::mesh(pen.mesh));
             for (at, size, c, s) in &pen.texts {
                 label(&painter, *at, *size, *c, s);
             }
         }
         if let Some((at, parts)) = &self.marker {
-            let stroke = egui::Stroke::new(2.5, pal.selected);
+            let stroke = egui::Stroke::new(2.5, color32(pal.selected));
             for &i in parts {
                 if let Some(p) = g.parts.get(i as usize) {
                     let r = egui::Rect::from_two_pos(
@@ -463,7 +465,7 @@ impl Canvas {
             }
             let c = view.screen_from_board(*at);
             painter.circle_stroke(c, 14.0, stroke);
-            painter.circle_stroke(c, 15.5, egui::Stroke::new(1.0, pal.background));
+            painter.circle_stroke(c, 15.5, egui::Stroke::new(1.0, color32(pal.background)));
             for d in [Vec2::X, Vec2::Y] {
                 painter.line_segment([c - d * 22.0, c - d * 8.0], stroke);
                 painter.line_segment([c + d * 8.0, c + d * 22.0], stroke);
@@ -511,7 +513,8 @@ impl Canvas {
     }
 }
 
-/// Draws into one egui mesh (fast for thousands of rectangles) plus text shapes.
+/// The window's pen: draws into one egui mesh (fast for thousands of rectangles) plus
+/// text shapes.
 struct EguiPen {
     view: View,
     clip: egui::Rect,
@@ -551,14 +554,16 @@ impl Pen for EguiPen {
         egui::Rect::from_two_pos(a, b).intersects(self.clip)
     }
 
-    fn fill_rect(&mut self, r: &Rect, c: Color32) {
+    fn fill_rect(&mut self, _: Item, r: &Rect, c: Colour) {
+        let c = color32(c);
         let a = self.view.screen_from_board(r.min);
         let b = self.view.screen_from_board(r.max);
         self.mesh
             .add_colored_rect(egui::Rect::from_two_pos(a, b), c);
     }
 
-    fn stroke_rect(&mut self, r: &Rect, w: f32, c: Color32) {
+    fn stroke_rect(&mut self, _: Item, r: &Rect, w: f32, c: Colour) {
+        let c = color32(c);
         let rr = egui::Rect::from_two_pos(
             self.view.screen_from_board(r.min),
             self.view.screen_from_board(r.max),
@@ -583,7 +588,8 @@ impl Pen for EguiPen {
         );
     }
 
-    fn line(&mut self, a: Point, b: Point, w: f32, c: Color32) {
+    fn line(&mut self, _: Item, a: Point, b: Point, w: f32, c: Colour) {
+        let c = color32(c);
         let (a, b) = (
             self.view.screen_from_board(a),
             self.view.screen_from_board(b),
@@ -591,7 +597,8 @@ impl Pen for EguiPen {
         self.seg(a, b, w, c);
     }
 
-    fn fill_circle(&mut self, centre: Point, r: f64, c: Color32) {
+    fn fill_circle(&mut self, _: Item, centre: Point, r: f64, c: Colour) {
+        let c = color32(c);
         let o = self.view.screen_from_board(centre);
         let rp = (r * self.view.scale) as f32;
         let k = if rp < 3.0 { 8 } else { 20 };
@@ -607,19 +614,21 @@ impl Pen for EguiPen {
         }
     }
 
-    fn fill_polygon(&mut self, pts: &[Point], c: Color32) {
+    fn fill_polygon(&mut self, _: Item, pts: &[Point], c: Colour) {
+        let c = color32(c);
         let i0 = self.mesh.vertices.len() as u32;
         for p in pts {
             let s = self.view.screen_from_board(*p);
             self.mesh.colored_vertex(s, c);
         }
-        for t in scene::triangulate(pts) {
+        for t in triangulate(pts) {
             self.mesh
                 .add_triangle(i0 + t[0] as u32, i0 + t[1] as u32, i0 + t[2] as u32);
         }
     }
 
-    fn text(&mut self, at: Point, h: f32, c: Color32, s: &str) {
+    fn text(&mut self, _: Item, at: Point, h: f32, c: Colour, s: &str) {
+        let c = color32(c);
         let p = self.view.screen_from_board(at);
         self.texts.push((p, h, c, s.to_string()));
     }

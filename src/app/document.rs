@@ -13,8 +13,8 @@ use lehr_engine::worker::{Command, EngineHandle};
 
 use crate::shared::{self, export_set};
 
-use super::scene::{Palette, Static};
-use super::{Action, Document, LehrApp, Message, caution, export, files};
+use super::{Action, Document, LehrApp, Message, caution, files};
+use lehr_engine::drawing::{BoardFacts, Palette};
 
 impl LehrApp {
     /// The board with the parts where the engine has them now.
@@ -36,7 +36,7 @@ impl LehrApp {
         self.engine = EngineHandle::spawn(design.clone(), self.settings.controls.options(None));
         self.engine
             .send(Command::SetMovesPerTick(self.settings.controls.speed));
-        self.st = Static::new(&design);
+        self.st = BoardFacts::new(&design);
         self.caution = caution::caution(&design);
         self.doc = Document {
             design,
@@ -105,7 +105,7 @@ impl LehrApp {
         } else {
             Palette::light()
         };
-        let bytes = export::png(
+        let bytes = lehr_engine::drawing::png::to_png(
             &self.doc.design,
             &self.st,
             &self.geom,
@@ -193,7 +193,6 @@ impl LehrApp {
             &stem,
             &targets,
             &lehr_engine::fab::FabOptions::default(),
-            super::PICTURES,
         )?;
         export_set::write_files(&targets, &files)?;
         let mut text = format!("Wrote {} files into {}.", files.len(), dir.display());

@@ -23,15 +23,11 @@ mod controls;
 mod copper;
 mod document;
 mod events;
-mod export;
 mod files;
 mod framebench;
 mod history;
 mod menu;
 mod plots;
-mod raster;
-mod scene;
-pub(crate) mod svg;
 mod undo;
 mod window;
 
@@ -50,23 +46,16 @@ use lehr_engine::place::{Schedule, Weights};
 use lehr_engine::worker::{Command, EngineHandle, Snapshot};
 
 use crate::shared;
-use crate::shared::export_set::Pictures;
 
 use canvas::Canvas;
 use controls::{ControlSettings, Controls};
 use copper::CopperPanel;
 pub use framebench::measure_frames;
+use lehr_engine::drawing::{BoardFacts, Palette, SceneGeometry};
 use plots::Plots;
-use scene::{Geometry, Palette, Static};
 use undo::{PartState, UndoStack};
 pub use window::{FrameTimes, OpenOptions, measure_headless, run_window};
 use window::{median, percentile};
-
-/// How the export set draws a board's pictures: the window's SVG and PNG code.
-pub(crate) const PICTURES: Pictures = Pictures {
-    svg: svg::board_svg,
-    png: svg::board_png,
-};
 
 /// Repaint interval while the engine runs (about 30 pictures a second).
 const REPAINT: Duration = Duration::from_millis(33);
@@ -173,11 +162,11 @@ struct Message {
 pub struct LehrApp {
     pub settings: Settings,
     doc: Document,
-    st: Static,
+    st: BoardFacts,
     engine: EngineHandle,
     snap: Option<Arc<Snapshot>>,
     epoch: u64,
-    geom: Geometry,
+    geom: SceneGeometry,
     geom_stale: bool,
     canvas: Canvas,
     controls: Controls,
@@ -219,7 +208,7 @@ impl LehrApp {
         let mut canvas = Canvas::default();
         canvas.labels = settings.labels;
         let mut app = LehrApp {
-            st: Static::new(&design),
+            st: BoardFacts::new(&design),
             caution: caution::caution(&design),
             doc: Document {
                 design,
@@ -231,7 +220,7 @@ impl LehrApp {
             engine,
             snap: None,
             epoch: 0,
-            geom: Geometry::default(),
+            geom: SceneGeometry::default(),
             geom_stale: true,
             canvas,
             controls: Controls::default(),
@@ -294,7 +283,7 @@ impl LehrApp {
     }
 
     fn rebuild_geometry(&mut self) {
-        self.geom = Geometry::build(
+        self.geom = SceneGeometry::build(
             &self.doc.design,
             &self.st,
             self.snap.as_deref(),

@@ -552,7 +552,7 @@ fn the_cached_board_picture_matches_the_view_and_redraws_only_on_change() {
     let mut app = grid_app();
     // 64 parts: below the default threshold, so force the picture.
     app.canvas.picture_parts = 0;
-    let pal = super::scene::Palette::dark();
+    let pal = lehr_engine::drawing::Palette::dark();
     let mut h = Harness::builder()
         .with_size([1280.0, 800.0])
         .with_pixels_per_point(2.0)

@@ -15,8 +15,8 @@ use crate::shared;
 
 use super::controls::ControlSettings;
 use super::menu::apply_theme;
-use super::scene::Palette;
 use super::{Action, LehrApp, Settings, budget, files};
+use lehr_engine::drawing::Palette;
 
 /// Frame times of the user-interface thread, for the status line and `--measure`.
 #[derive(Debug, Default)]
@@ -126,7 +126,7 @@ impl eframe::App for Window {
         } else {
             Palette::light()
         };
-        pal.background.to_normalized_gamma_f32()
+        super::canvas::color32(pal.background).to_normalized_gamma_f32()
     }
 
     fn ui(&mut self, ui: &mut egui::Ui, frame: &mut eframe::Frame) {

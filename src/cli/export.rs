@@ -76,17 +76,11 @@ pub fn run(a: ExportArgs) -> Result<ExitCode> {
     opts.check()?;
 
     // Make every file's contents first: an error then writes nothing at all.
-    let files = build_files(
-        &design,
-        &file_stem(&a.board),
-        &targets,
-        &opts,
-        crate::app::PICTURES,
-    )?;
+    let files = build_files(&design, &file_stem(&a.board), &targets, &opts)?;
 
     let warnings = fab::warnings(&design);
     // Hazardous voltages or high currents: the usual caution, before the files go out.
-    let caution = crate::app::svg::caution(&design);
+    let caution = lehr_engine::drawing::caution::caution(&design);
     if !a.json {
         for w in &warnings {
             eprintln!("lehr: warning: {w}");

@@ -1,8 +1,7 @@
 //! The export set: which files an export of a board writes and their bytes, made before
 //! anything is written so that an error writes nothing. `lehr export` and the window's
 //! "Export fabrication files" both build and write it here. The fabrication text comes from
-//! `lehr_engine::fab`; the pictures from the window's drawing code, passed in as
-//! [`Pictures`] (this module sits below the window and may not import it).
+//! `lehr_engine::fab`, the pictures from `lehr_engine::drawing`.
 
 use std::path::{Path, PathBuf};
 
@@ -53,16 +52,6 @@ impl Targets {
     }
 }
 
-/// How the pictures of a board are drawn: handed in by the caller (the window's drawing
-/// code), so that this module needs nothing above it.
-#[derive(Clone, Copy)]
-pub struct Pictures {
-    /// The SVG picture's text.
-    pub svg: fn(&Design) -> String,
-    /// The PNG picture's bytes, or why it could not be drawn.
-    pub png: fn(&Design) -> Result<Vec<u8>, String>,
-}
-
 /// The contents of every file `targets` names, before anything is written (the CLI and
 /// the window both write them with [`write_files`]).
 pub fn build_files(
@@ -70,15 +59,17 @@ pub fn build_files(
     stem: &str,
     targets: &Targets,
     opts: &FabOptions,
-    pictures: Pictures,
 ) -> Result<Vec<(PathBuf, Vec<u8>)>> {
     let mut files: Vec<(PathBuf, Vec<u8>)> = Vec::new();
     if let Some(p) = &targets.svg {
-        files.push((p.clone(), (pictures.svg)(design).into_bytes()));
+        files.push((
+            p.clone(),
+            lehr_engine::drawing::board_svg(design).into_bytes(),
+        ));
     }
     if let Some(p) = &targets.png {
-        let bytes =
-            (pictures.png)(design).map_err(|e| anyhow!("cannot draw the PNG picture: {e}"))?;
+        let bytes = lehr_engine::drawing::board_png(design)
+            .map_err(|e| anyhow!("cannot draw the PNG picture: {e}"))?;
         files.push((p.clone(), bytes));
     }
     if let Some(dir) = &targets.gerber {

@@ -1,23 +1,34 @@
-//! The board as a PNG picture, drawn with tiny-skia by the same drawing code as the canvas
-//! (no window needed). Part references are drawn from the outlines of the monospace font
-//! egui ships (Hack), read with skrifa.
+//! The board as a PNG picture, drawn with tiny-skia by the same scene code as the window's
+//! canvas and the SVG picture. Part references are drawn from the outlines of a monospace
+//! font (Hack, as packaged for egui's default fonts), read with skrifa.
 
-use egui::Color32;
 use tiny_skia::{FillRule, Paint, PathBuilder, Pixmap, Stroke, Transform};
 
-use lehr_engine::model::{Design, Point, Rect};
+use crate::model::{Design, Point, Rect};
 
-use super::scene::{self, Geometry, Marks, Palette, Pen, Static};
+use super::colour::{Colour, Palette};
+use super::scene::{self, BoardFacts, Item, Marks, Pen, SceneGeometry};
+use super::svg::PX_PER_MM;
 
 /// Largest side of an exported picture, pixels.
 pub const MAX_SIDE: u32 = 4000;
+
+/// The board as a PNG picture at [`PX_PER_MM`] (reduced for huge boards), with references,
+/// on the light palette; the same drawing as [`super::svg::board_svg`].
+pub fn board_png(design: &Design) -> Result<Vec<u8>, String> {
+    let st = BoardFacts::new(design);
+    let mut g = SceneGeometry::build(design, &st, None, None);
+    // Wiring still to do is a working aid of the window, not part of the board.
+    g.unrouted.clear();
+    to_png(design, &st, &g, &Palette::light(), PX_PER_MM, true)
+}
 
 /// Renders the board at `px_per_mm` (reduced if the picture would exceed [`MAX_SIDE`]),
 /// with part references when `labels`.
 pub fn render(
     design: &Design,
-    st: &Static,
-    g: &Geometry,
+    st: &BoardFacts,
+    g: &SceneGeometry,
     pal: &Palette,
     px_per_mm: f64,
     labels: bool,
@@ -29,7 +40,7 @@ pub fn render(
     let side = |mm: f64| ((mm * scale).ceil().max(1.0) as u32).min(MAX_SIDE);
     let (w, h) = (side(b.width()), side(b.height()));
     let mut pixmap = Pixmap::new(w, h)?;
-    pixmap.fill(color(pal.background));
+    pixmap.fill(skia_colour(pal.background));
     let mut pen = SkiaPen {
         pixmap: &mut pixmap,
         bounds: b,
@@ -44,11 +55,11 @@ pub fn render(
     Some(pixmap)
 }
 
-/// The picture as PNG bytes.
-pub fn png(
+/// The picture [`render`] makes, as PNG bytes.
+pub fn to_png(
     design: &Design,
-    st: &Static,
-    g: &Geometry,
+    st: &BoardFacts,
+    g: &SceneGeometry,
     pal: &Palette,
     px_per_mm: f64,
     labels: bool,
@@ -58,19 +69,22 @@ pub fn png(
     pixmap.encode_png().map_err(|e| e.to_string())
 }
 
-fn color(c: Color32) -> tiny_skia::Color {
-    let [r, g, b, a] = c.to_srgba_unmultiplied();
+/// The colour as tiny-skia takes it.
+pub fn skia_colour(c: Colour) -> tiny_skia::Color {
+    let [r, g, b, a] = c.unmultiplied();
     tiny_skia::Color::from_rgba8(r, g, b, a)
 }
 
-fn paint(c: Color32) -> Paint<'static> {
+fn paint(c: Colour) -> Paint<'static> {
     let mut p = Paint::default();
-    let [r, g, b, a] = c.to_srgba_unmultiplied();
+    let [r, g, b, a] = c.unmultiplied();
     p.set_color_rgba8(r, g, b, a);
     p.anti_alias = true;
     p
 }
 
+/// Draws with tiny-skia's paths: smoothed edges, any shape (slow for many small ones; see
+/// [`super::raster`] for the window's fast pen).
 pub(super) struct SkiaPen<'a> {
     pub(super) pixmap: &'a mut Pixmap,
     /// Board area shown; its top-left corner is pixel (0, 0).
@@ -114,7 +128,7 @@ impl Pen for SkiaPen<'_> {
             && r.min.y <= b.max.y + m
     }
 
-    fn fill_rect(&mut self, r: &Rect, c: Color32) {
+    fn fill_rect(&mut self, _: Item, r: &Rect, c: Colour) {
         if let Some(path) = self.rect_path(r) {
             self.pixmap.fill_path(
                 &path,
@@ -126,7 +140,7 @@ impl Pen for SkiaPen<'_> {
         }
     }
 
-    fn stroke_rect(&mut self, r: &Rect, w: f32, c: Color32) {
+    fn stroke_rect(&mut self, _: Item, r: &Rect, w: f32, c: Colour) {
         if let Some(path) = self.rect_path(r) {
             let stroke = Stroke {
                 width: w * self.ppp,
@@ -137,7 +151,7 @@ impl Pen for SkiaPen<'_> {
         }
     }
 
-    fn line(&mut self, a: Point, b: Point, w: f32, c: Color32) {
+    fn line(&mut self, _: Item, a: Point, b: Point, w: f32, c: Colour) {
         let mut pb = PathBuilder::new();
         let (ax, ay) = self.px(a);
         let (bx, by) = self.px(b);
@@ -153,7 +167,7 @@ impl Pen for SkiaPen<'_> {
         }
     }
 
-    fn fill_circle(&mut self, centre: Point, r: f64, c: Color32) {
+    fn fill_circle(&mut self, _: Item, centre: Point, r: f64, c: Colour) {
         let (x, y) = self.px(centre);
         let rp = (r * self.scale) as f32 * self.ppp;
         if let Some(path) = PathBuilder::from_circle(x, y, rp.max(0.3)) {
@@ -167,7 +181,7 @@ impl Pen for SkiaPen<'_> {
         }
     }
 
-    fn fill_polygon(&mut self, pts: &[Point], c: Color32) {
+    fn fill_polygon(&mut self, _: Item, pts: &[Point], c: Colour) {
         let mut pb = PathBuilder::new();
         for (i, p) in pts.iter().enumerate() {
             let (x, y) = self.px(*p);
@@ -189,7 +203,7 @@ impl Pen for SkiaPen<'_> {
         }
     }
 
-    fn text(&mut self, at: Point, h: f32, c: Color32, s: &str) {
+    fn text(&mut self, _: Item, at: Point, h: f32, c: Colour, s: &str) {
         let (cx, cy) = self.px(at);
         if let Some(path) = text_path(s, h * self.ppp, cx, cy) {
             self.pixmap.fill_path(
@@ -281,15 +295,13 @@ mod tests {
 
     #[test]
     fn the_picture_shows_the_board_and_its_pads() {
-        let design =
-            lehr_engine::model::resolve(lehr_engine::place::generate::grid_board(4, 2.54, 3))
-                .unwrap();
-        let st = Static::new(&design);
-        let mut g = Geometry::build(&design, &st, None, None);
+        let design = crate::model::resolve(crate::place::generate::grid_board(4, 2.54, 3)).unwrap();
+        let st = BoardFacts::new(&design);
+        let mut g = SceneGeometry::build(&design, &st, None, None);
         // Unrouted lines run through pad centres; leave them out to see the pad.
         g.unrouted.clear();
         let pal = Palette::light();
-        let bytes = png(&design, &st, &g, &pal, 20.0, false).unwrap();
+        let bytes = to_png(&design, &st, &g, &pal, 20.0, false).unwrap();
         let pic = Pixmap::decode_png(&bytes).unwrap();
         let b = g.bounds.inflate(1.0);
         assert_eq!(pic.width(), (b.width() * 20.0).ceil() as u32);
@@ -302,10 +314,10 @@ mod tests {
             pic.pixel(x, y).unwrap().demultiply()
         };
         let c = px(pad);
-        let [r, gg, bb, _] = pal.pad_top.to_srgba_unmultiplied();
+        let [r, gg, bb, _] = pal.pad_top.unmultiplied();
         assert_eq!((c.red(), c.green(), c.blue()), (r, gg, bb));
         let corner = pic.pixel(0, 0).unwrap().demultiply();
-        let [r, gg, bb, _] = pal.background.to_srgba_unmultiplied();
+        let [r, gg, bb, _] = pal.background.unmultiplied();
         assert_eq!((corner.red(), corner.green(), corner.blue()), (r, gg, bb));
     }
 
@@ -323,11 +335,9 @@ mod tests {
 
     #[test]
     fn huge_boards_are_scaled_down() {
-        let design =
-            lehr_engine::model::resolve(lehr_engine::place::generate::grid_board(3, 2.54, 3))
-                .unwrap();
-        let st = Static::new(&design);
-        let g = Geometry::build(&design, &st, None, None);
+        let design = crate::model::resolve(crate::place::generate::grid_board(3, 2.54, 3)).unwrap();
+        let st = BoardFacts::new(&design);
+        let g = SceneGeometry::build(&design, &st, None, None);
         let pic = render(&design, &st, &g, &Palette::dark(), 1e6, true).unwrap();
         assert!(pic.width() <= MAX_SIDE && pic.height() <= MAX_SIDE);
     }

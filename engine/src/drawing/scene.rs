@@ -1,98 +1,14 @@
 //! What the board picture holds and how it is drawn, independent of where it is drawn:
-//! the window's canvas paints it with egui, the picture export with tiny-skia. Positions
-//! are board millimetres (y up) until a [`Pen`] maps them to pixels.
+//! [`draw`] hands every shape, with the [`Item`] it shows and its colour, to a [`Pen`]
+//! (the window's canvas paints with egui, the exported pictures are SVG or tiny-skia
+//! pixels). Positions are board millimetres (y up) until a pen maps them to pixels.
 
-use egui::Color32;
+use crate::model::board::Layer;
+use crate::model::{Design, PadShape, Point, Quarter, Rect, Side, rect_to_board, to_board};
+use crate::place::mst::{Metric, spanning_tree};
+use crate::worker::Snapshot;
 
-use lehr_engine::model::board::Layer;
-use lehr_engine::model::{Design, PadShape, Point, Quarter, Rect, Side, rect_to_board, to_board};
-use lehr_engine::place::mst::{Metric, spanning_tree};
-use lehr_engine::worker::Snapshot;
-
-/// Colours of the board picture. Chosen for lehr: a dark-green board on the dark theme, a
-/// pale sage board on the light one; copper in warm gold, the bottom side in teal, wiring
-/// still to do in grey, conflicts in red, the selection in yellow.
-#[derive(Clone, Copy, Debug)]
-pub struct Palette {
-    pub background: Color32,
-    pub board: Color32,
-    pub outline: Color32,
-    pub keepout_fill: Color32,
-    pub keepout_edge: Color32,
-    pub courtyard: Color32,
-    pub courtyard_fill: Color32,
-    pub locked_fill: Color32,
-    pub locked_edge: Color32,
-    pub body: Color32,
-    pub pad_top: Color32,
-    pub pad_bottom: Color32,
-    pub drill: Color32,
-    pub unrouted: Color32,
-    pub highlight: Color32,
-    pub conflict: Color32,
-    pub selected: Color32,
-    pub hovered: Color32,
-    pub label: Color32,
-    pub track_top: Color32,
-    pub track_bottom: Color32,
-    pub via: Color32,
-}
-
-impl Palette {
-    pub fn dark() -> Palette {
-        Palette {
-            background: Color32::from_rgb(0x16, 0x19, 0x1c),
-            board: Color32::from_rgb(0x1c, 0x2e, 0x25),
-            outline: Color32::from_rgb(0xc9, 0xd3, 0xbf),
-            keepout_fill: Color32::from_rgba_unmultiplied(0xd0, 0x5a, 0x44, 40),
-            keepout_edge: Color32::from_rgb(0xd8, 0x6e, 0x58),
-            courtyard: Color32::from_rgb(0x8a, 0x98, 0xa6),
-            courtyard_fill: Color32::from_rgba_unmultiplied(0x9a, 0xa8, 0xb4, 22),
-            locked_fill: Color32::from_rgba_unmultiplied(0x6e, 0x8c, 0xe6, 60),
-            locked_edge: Color32::from_rgb(0x8e, 0xaa, 0xf5),
-            body: Color32::from_rgb(0x5c, 0x66, 0x70),
-            pad_top: Color32::from_rgb(0xd8, 0xa6, 0x48),
-            pad_bottom: Color32::from_rgb(0x3f, 0xb0, 0xaa),
-            drill: Color32::from_rgb(0x10, 0x12, 0x14),
-            unrouted: Color32::from_rgba_unmultiplied(0xe6, 0xe6, 0xdc, 110),
-            highlight: Color32::from_rgb(0x62, 0xd6, 0xff),
-            conflict: Color32::from_rgb(0xff, 0x55, 0x50),
-            selected: Color32::from_rgb(0xff, 0xdc, 0x4a),
-            hovered: Color32::from_rgb(0xee, 0xf2, 0xf4),
-            label: Color32::from_rgb(0xe4, 0xe8, 0xe0),
-            track_top: Color32::from_rgba_unmultiplied(0xd9, 0x74, 0x4c, 210),
-            track_bottom: Color32::from_rgba_unmultiplied(0x52, 0x8e, 0xdc, 190),
-            via: Color32::from_rgb(0xb8, 0xbc, 0xc0),
-        }
-    }
-
-    pub fn light() -> Palette {
-        Palette {
-            background: Color32::from_rgb(0xf3, 0xf4, 0xf1),
-            board: Color32::from_rgb(0xdc, 0xe8, 0xd8),
-            outline: Color32::from_rgb(0x2f, 0x42, 0x33),
-            keepout_fill: Color32::from_rgba_unmultiplied(0xc8, 0x3c, 0x28, 40),
-            keepout_edge: Color32::from_rgb(0xb0, 0x3a, 0x28),
-            courtyard: Color32::from_rgb(0x55, 0x60, 0x6c),
-            courtyard_fill: Color32::from_rgba_unmultiplied(0xff, 0xff, 0xff, 90),
-            locked_fill: Color32::from_rgba_unmultiplied(0x3c, 0x5c, 0xc8, 50),
-            locked_edge: Color32::from_rgb(0x2c, 0x48, 0xa8),
-            body: Color32::from_rgb(0x8a, 0x94, 0x9c),
-            pad_top: Color32::from_rgb(0xb4, 0x7a, 0x12),
-            pad_bottom: Color32::from_rgb(0x14, 0x84, 0x80),
-            drill: Color32::from_rgb(0xfa, 0xfa, 0xf6),
-            unrouted: Color32::from_rgba_unmultiplied(0x30, 0x34, 0x38, 120),
-            highlight: Color32::from_rgb(0x00, 0x6c, 0xd8),
-            conflict: Color32::from_rgb(0xd2, 0x1e, 0x28),
-            selected: Color32::from_rgb(0xc8, 0x8c, 0x00),
-            hovered: Color32::from_rgb(0x10, 0x14, 0x18),
-            label: Color32::from_rgb(0x1c, 0x22, 0x26),
-            track_top: Color32::from_rgba_unmultiplied(0xc0, 0x50, 0x28, 200),
-            track_bottom: Color32::from_rgba_unmultiplied(0x28, 0x60, 0xc0, 180),
-            via: Color32::from_rgb(0x60, 0x66, 0x6c),
-        }
-    }
-}
+use super::colour::{Colour, Palette};
 
 /// A pad as drawn: its board rectangle and the net it belongs to.
 #[derive(Clone, Debug)]
@@ -114,7 +30,7 @@ pub struct PartGeom {
     pub pads: Vec<PadGeom>,
     pub side: Side,
     pub locked: bool,
-    /// Conflict bits, see [`lehr_engine::worker::Snapshot::conflicts`].
+    /// Conflict bits, see [`crate::worker::Snapshot::conflicts`].
     pub conflicts: u8,
 }
 
@@ -126,9 +42,11 @@ pub struct Unrouted {
     pub b: Point,
 }
 
-/// Per-design facts the picture needs, computed once per board.
+/// What the picture takes from a design once per board: the outline, the keep-outs, each
+/// pad's net and which nets are routed. None of it changes while parts move (the window
+/// makes it again when another board is opened or the copper changes).
 #[derive(Clone, Debug)]
-pub struct Static {
+pub struct BoardFacts {
     /// Net of each pad, per part.
     pub pad_net: Vec<Vec<Option<u32>>>,
     pub outline: Vec<Point>,
@@ -137,9 +55,9 @@ pub struct Static {
     pub routed: Vec<bool>,
 }
 
-impl Static {
-    pub fn new(design: &Design) -> Static {
-        Static {
+impl BoardFacts {
+    pub fn new(design: &Design) -> BoardFacts {
+        BoardFacts {
             pad_net: design
                 .pad_nets()
                 .into_iter()
@@ -157,30 +75,32 @@ impl Static {
     }
 }
 
-/// Everything on the board at one moment, in board millimetres.
+/// The placed geometry of one moment (one frame of the window, or an exported picture):
+/// every part where it stands with its pads, and the wiring still to do, in board
+/// millimetres. Built from the [`BoardFacts`] and the positions of a snapshot.
 #[derive(Clone, Debug, Default)]
-pub struct Geometry {
+pub struct SceneGeometry {
     pub parts: Vec<PartGeom>,
     pub unrouted: Vec<Unrouted>,
     /// Bounds of the outline and every part.
     pub bounds: Rect,
-    /// A number of this build, different for every [`Geometry::build`] of the process
+    /// A number of this build, different for every [`SceneGeometry::build`] of the process
     /// (the canvas redraws its cached picture when it changes; 0 for the default).
     pub generation: u64,
 }
 
-/// Source of [`Geometry::generation`].
+/// Source of [`SceneGeometry::generation`].
 static GENERATION: std::sync::atomic::AtomicU64 = std::sync::atomic::AtomicU64::new(1);
 
-impl Geometry {
+impl SceneGeometry {
     /// The board as the snapshot has it, with `moved` (a part being dragged) overriding
     /// the snapshot's position of that part. Without a snapshot, the file's positions.
     pub fn build(
         design: &Design,
-        st: &Static,
+        st: &BoardFacts,
         snap: Option<&Snapshot>,
         moved: Option<(u32, Point, Quarter)>,
-    ) -> Geometry {
+    ) -> SceneGeometry {
         let n = design.board.parts.len();
         let snap = snap.filter(|s| s.positions.len() == n && s.quarters.len() == n);
         let mut parts = Vec::with_capacity(n);
@@ -212,8 +132,8 @@ impl Geometry {
                         rect: Rect::centered(to_board(pad.at, at, q, side), w, h),
                         shape: pad.shape,
                         drill: match pad.kind {
-                            lehr_engine::model::PadKind::ThroughHole { drill, .. } => Some(drill),
-                            lehr_engine::model::PadKind::Smd => None,
+                            crate::model::PadKind::ThroughHole { drill, .. } => Some(drill),
+                            crate::model::PadKind::Smd => None,
                         },
                         net: st.pad_net[i][k],
                     }
@@ -251,7 +171,7 @@ impl Geometry {
         }
         let outline = design.board.outline.bounds();
         let bounds = parts.iter().fold(outline, |r, p| r.union(&p.court));
-        Geometry {
+        SceneGeometry {
             parts,
             unrouted,
             bounds,
@@ -302,21 +222,126 @@ pub fn segment_distance(p: Point, a: Point, b: Point) -> f64 {
     (p.x - (a.x + t * dx)).hypot(p.y - (a.y + t * dy))
 }
 
-/// Something that draws in board millimetres. Widths of lines are in pixels unless said.
+/// What a shape of the picture shows. The scene names it with every shape it hands a
+/// [`Pen`], so a pen that sorts shapes (the SVG pen groups them into layers) never has
+/// to guess from colours. Listed in the order the SVG stacks its groups, bottom first.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+pub enum Item {
+    /// The board's area inside its outline.
+    Board,
+    /// The area of a keep-out.
+    Keepout,
+    /// The edge of a keep-out.
+    KeepoutEdge,
+    /// The board's outline.
+    Outline,
+    /// A track on the bottom copper layer (segments and round joints).
+    TrackBottom,
+    /// A track on the top copper layer.
+    TrackTop,
+    /// The copper ring of a via.
+    Via,
+    /// The area of a part's courtyard.
+    Courtyard,
+    /// The area of a locked part's courtyard.
+    CourtyardLocked,
+    /// A part's body outline.
+    Body,
+    /// A pad of a part on the bottom side.
+    PadBottom,
+    /// A pad of a part on the top side.
+    PadTop,
+    /// A drilled hole: of a through-hole pad or of a via.
+    Hole,
+    /// The edge of a part's courtyard.
+    CourtyardEdge,
+    /// The edge of a locked part's courtyard.
+    CourtyardLockedEdge,
+    /// The edge of the part under the pointer.
+    Hovered,
+    /// A part in conflict (overlapping, outside the board, in a keep-out): its edge, or
+    /// its whole courtyard when too small to outline.
+    Conflict,
+    /// The edge of the selected part.
+    Selected,
+    /// A line of wiring still to do.
+    Unrouted,
+    /// A pad or unrouted line of the highlighted net.
+    Highlight,
+    /// A part's reference.
+    Reference,
+}
+
+impl Item {
+    /// Every item, in stacking order (bottom first).
+    pub const ALL: [Item; 21] = [
+        Item::Board,
+        Item::Keepout,
+        Item::KeepoutEdge,
+        Item::Outline,
+        Item::TrackBottom,
+        Item::TrackTop,
+        Item::Via,
+        Item::Courtyard,
+        Item::CourtyardLocked,
+        Item::Body,
+        Item::PadBottom,
+        Item::PadTop,
+        Item::Hole,
+        Item::CourtyardEdge,
+        Item::CourtyardLockedEdge,
+        Item::Hovered,
+        Item::Conflict,
+        Item::Selected,
+        Item::Unrouted,
+        Item::Highlight,
+        Item::Reference,
+    ];
+
+    /// A short name of our own, for class names and layer names of pictures.
+    pub fn name(self) -> &'static str {
+        match self {
+            Item::Board => "board",
+            Item::Keepout => "keepout",
+            Item::KeepoutEdge => "keepout-edge",
+            Item::Outline => "outline",
+            Item::TrackBottom => "track-bottom",
+            Item::TrackTop => "track-top",
+            Item::Via => "via",
+            Item::Courtyard => "courtyard",
+            Item::CourtyardLocked => "courtyard-locked",
+            Item::Body => "body",
+            Item::PadBottom => "pad-bottom",
+            Item::PadTop => "pad-top",
+            Item::Hole => "drill",
+            Item::CourtyardEdge => "courtyard-edge",
+            Item::CourtyardLockedEdge => "courtyard-locked-edge",
+            Item::Hovered => "hovered",
+            Item::Conflict => "conflict",
+            Item::Selected => "selected",
+            Item::Unrouted => "unrouted",
+            Item::Highlight => "highlight",
+            Item::Reference => "reference",
+        }
+    }
+}
+
+/// Something that draws in board millimetres. Each shape comes with the [`Item`] it
+/// shows and the colour to draw it in. Widths of lines are in pixels unless said.
 pub trait Pen {
     /// Pixels per millimetre.
     fn scale(&self) -> f64;
     /// Whether anything inside this board rectangle can be seen.
     fn visible(&self, r: &Rect) -> bool;
-    fn fill_rect(&mut self, r: &Rect, c: Color32);
-    fn stroke_rect(&mut self, r: &Rect, width_px: f32, c: Color32);
+    fn fill_rect(&mut self, item: Item, r: &Rect, c: Colour);
+    fn stroke_rect(&mut self, item: Item, r: &Rect, width_px: f32, c: Colour);
     /// A straight line `width_px` wide.
-    fn line(&mut self, a: Point, b: Point, width_px: f32, c: Color32);
-    fn fill_circle(&mut self, centre: Point, radius_mm: f64, c: Color32);
+    fn line(&mut self, item: Item, a: Point, b: Point, width_px: f32, c: Colour);
+    fn fill_circle(&mut self, item: Item, centre: Point, radius_mm: f64, c: Colour);
     /// A simple polygon (concave allowed).
-    fn fill_polygon(&mut self, pts: &[Point], c: Color32);
+    fn fill_polygon(&mut self, item: Item, pts: &[Point], c: Colour);
     /// Text centred on `at`, `height_px` tall.
-    fn text(&mut self, at: Point, height_px: f32, c: Color32, s: &str);
+    fn text(&mut self, item: Item, at: Point, height_px: f32, c: Colour, s: &str);
 }
 
 /// What the viewer singles out.
@@ -332,45 +357,45 @@ pub struct Marks {
 pub fn draw(
     pen: &mut dyn Pen,
     design: &Design,
-    st: &Static,
-    g: &Geometry,
+    st: &BoardFacts,
+    g: &SceneGeometry,
     pal: &Palette,
     m: &Marks,
 ) {
     let s = pen.scale() as f32;
-    pen.fill_polygon(&st.outline, pal.board);
+    pen.fill_polygon(Item::Board, &st.outline, pal.board);
     for k in &st.keepouts {
-        pen.fill_polygon(k, pal.keepout_fill);
-        outline(pen, k, 1.5, pal.keepout_edge);
+        pen.fill_polygon(Item::Keepout, k, pal.keepout_fill);
+        outline(pen, Item::KeepoutEdge, k, 1.5, pal.keepout_edge);
     }
-    outline(pen, &st.outline, 2.0, pal.outline);
+    outline(pen, Item::Outline, &st.outline, 2.0, pal.outline);
 
     // Routed copper, bottom layer first.
     let copper = &design.board.copper;
     for layer in [Layer::Bottom, Layer::Top] {
-        let c = if layer == Layer::Top {
-            pal.track_top
+        let (item, c) = if layer == Layer::Top {
+            (Item::TrackTop, pal.track_top)
         } else {
-            pal.track_bottom
+            (Item::TrackBottom, pal.track_bottom)
         };
         for t in copper.tracks.iter().filter(|t| t.layer == layer) {
             let w = (t.width as f32 * s).max(1.0);
             // Round joints and ends only where they can be seen.
             let round = w >= 2.5;
             for seg in t.points.windows(2) {
-                pen.line(seg[0], seg[1], w, c);
+                pen.line(item, seg[0], seg[1], w, c);
                 if round {
-                    pen.fill_circle(seg[1], t.width / 2.0, c);
+                    pen.fill_circle(item, seg[1], t.width / 2.0, c);
                 }
             }
             if let Some(p) = t.points.first().filter(|_| round) {
-                pen.fill_circle(*p, t.width / 2.0, c);
+                pen.fill_circle(item, *p, t.width / 2.0, c);
             }
         }
     }
     for v in &copper.vias {
-        pen.fill_circle(v.at, v.diameter / 2.0, pal.via);
-        pen.fill_circle(v.at, v.drill / 2.0, pal.drill);
+        pen.fill_circle(Item::Via, v.at, v.diameter / 2.0, pal.via);
+        pen.fill_circle(Item::Hole, v.at, v.drill / 2.0, pal.drill);
     }
 
     for (i, p) in g.parts.iter().enumerate() {
@@ -378,73 +403,77 @@ pub fn draw(
             continue;
         }
         let i = i as u32;
-        let (edge, w) = if Some(i) == m.selected {
-            (pal.selected, 2.5)
+        let (edge_item, edge, w) = if Some(i) == m.selected {
+            (Item::Selected, pal.selected, 2.5)
         } else if p.conflicts != 0 {
-            (pal.conflict, 2.0)
+            (Item::Conflict, pal.conflict, 2.0)
         } else if Some(i) == m.hovered_part {
-            (pal.hovered, 1.5)
+            (Item::Hovered, pal.hovered, 1.5)
         } else if p.locked {
-            (pal.locked_edge, 1.5)
+            (Item::CourtyardLockedEdge, pal.locked_edge, 1.5)
         } else {
-            (pal.courtyard, 1.0)
+            (Item::CourtyardEdge, pal.courtyard, 1.0)
         };
         // A part only a few pixels across is drawn as one block in its edge colour: an
         // outline costs eight triangles, and a software renderer pays for each.
         if p.court.width().min(p.court.height()) * pen.scale() < 8.0 {
-            pen.fill_rect(&p.court, edge.gamma_multiply(0.55));
+            pen.fill_rect(edge_item, &p.court, edge.faded(0.55));
             continue;
         }
-        pen.fill_rect(
-            &p.court,
-            if p.locked {
-                pal.locked_fill
-            } else {
-                pal.courtyard_fill
-            },
-        );
+        let (fill_item, fill) = if p.locked {
+            (Item::CourtyardLocked, pal.locked_fill)
+        } else {
+            (Item::Courtyard, pal.courtyard_fill)
+        };
+        pen.fill_rect(fill_item, &p.court, fill);
         // Zoomed far out, pads and bodies would be specks: skip them (fewer triangles).
         let detail = p.court.width().min(p.court.height()) * pen.scale() >= 8.0;
         if detail {
-            pen.stroke_rect(&p.body, 1.0, pal.body);
+            pen.stroke_rect(Item::Body, &p.body, 1.0, pal.body);
         }
-        let pad_c = if p.side == Side::Top {
-            pal.pad_top
+        let pad_side = if p.side == Side::Top {
+            (Item::PadTop, pal.pad_top)
         } else {
-            pal.pad_bottom
+            (Item::PadBottom, pal.pad_bottom)
         };
         for pad in p.pads.iter().filter(|_| detail) {
-            let c = if m.net.is_some() && pad.net == m.net {
-                pal.highlight
+            let (item, c) = if m.net.is_some() && pad.net == m.net {
+                (Item::Highlight, pal.highlight)
             } else {
-                pad_c
+                pad_side
             };
             match pad.shape {
                 PadShape::Circle => pen.fill_circle(
+                    item,
                     pad.rect.center(),
                     pad.rect.width().min(pad.rect.height()) / 2.0,
                     c,
                 ),
-                _ => pen.fill_rect(&pad.rect, c),
+                _ => pen.fill_rect(item, &pad.rect, c),
             }
             if let Some(d) = pad.drill {
-                pen.fill_circle(pad.rect.center(), d / 2.0, pal.drill);
+                pen.fill_circle(Item::Hole, pad.rect.center(), d / 2.0, pal.drill);
             }
         }
-        pen.stroke_rect(&p.court, w, edge);
+        pen.stroke_rect(edge_item, &p.court, w, edge);
         if p.conflicts != 0 && Some(i) == m.selected {
-            pen.stroke_rect(&p.court.inflate(2.5 / pen.scale()), 1.5, pal.conflict);
+            pen.stroke_rect(
+                Item::Conflict,
+                &p.court.inflate(2.5 / pen.scale()),
+                1.5,
+                pal.conflict,
+            );
         }
     }
 
     for u in &g.unrouted {
         let hi = Some(u.net) == m.net;
-        let (c, w) = if hi {
-            (pal.highlight, 2.0)
+        let (item, c, w) = if hi {
+            (Item::Highlight, pal.highlight, 2.0)
         } else {
-            (pal.unrouted, 1.0)
+            (Item::Unrouted, pal.unrouted, 1.0)
         };
-        pen.line(u.a, u.b, w, c);
+        pen.line(item, u.a, u.b, w, c);
     }
 
     if m.labels {
@@ -455,15 +484,21 @@ pub fn draw(
                 .min(w_px / (0.62 * part.reference.len().max(1) as f32))
                 .min(18.0);
             if size >= 7.0 && pen.visible(&p.court) {
-                pen.text(p.court.center(), size, pal.label, &part.reference);
+                pen.text(
+                    Item::Reference,
+                    p.court.center(),
+                    size,
+                    pal.label,
+                    &part.reference,
+                );
             }
         }
     }
 }
 
-fn outline(pen: &mut dyn Pen, pts: &[Point], w: f32, c: Color32) {
+fn outline(pen: &mut dyn Pen, item: Item, pts: &[Point], w: f32, c: Colour) {
     for i in 0..pts.len() {
-        pen.line(pts[i], pts[(i + 1) % pts.len()], w, c);
+        pen.line(item, pts[i], pts[(i + 1) % pts.len()], w, c);
     }
 }
 
@@ -474,7 +509,7 @@ pub fn triangulate(pts: &[Point]) -> Vec<[usize; 3]> {
     if n < 3 {
         return Vec::new();
     }
-    let area = lehr_engine::model::geom::signed_area(pts);
+    let area = crate::model::geom::signed_area(pts);
     let ccw = area >= 0.0;
     let mut idx: Vec<usize> = if ccw {
         (0..n).collect()
@@ -540,9 +575,7 @@ mod tests {
             assert_eq!(tris.len(), 4);
             let area: f64 = tris
                 .iter()
-                .map(|t| {
-                    lehr_engine::model::geom::signed_area(&[pts[t[0]], pts[t[1]], pts[t[2]]]).abs()
-                })
+                .map(|t| crate::model::geom::signed_area(&[pts[t[0]], pts[t[1]], pts[t[2]]]).abs())
                 .sum();
             assert!((area - 3.0).abs() < 1e-12);
         }
@@ -551,11 +584,9 @@ mod tests {
 
     #[test]
     fn hit_tests_find_parts_and_nets() {
-        let design =
-            lehr_engine::model::resolve(lehr_engine::place::generate::grid_board(3, 2.54, 1))
-                .unwrap();
-        let st = Static::new(&design);
-        let g = Geometry::build(&design, &st, None, None);
+        let design = crate::model::resolve(crate::place::generate::grid_board(3, 2.54, 1)).unwrap();
+        let st = BoardFacts::new(&design);
+        let g = SceneGeometry::build(&design, &st, None, None);
         assert_eq!(g.parts.len(), 9);
         let c = g.parts[4].court.center();
         assert_eq!(g.part_at(c), Some(4));

@@ -1,8 +1,8 @@
-//! The canvas's cached board picture: the scene drawn into a pixmap by a small scanline
-//! filler of our own for its thousands of rectangles, lines and dots (tiny-skia's general
-//! path pipeline costs several microseconds a shape, too slow to redraw 1,000 parts a few
-//! times a second), and by tiny-skia for concave outlines. Part references are left to
-//! egui's text on top.
+//! The window canvas's cached board picture: the scene drawn into a pixmap by a small
+//! scanline filler of our own for its thousands of rectangles, lines and dots (tiny-skia's
+//! general path pipeline costs several microseconds a shape, too slow to redraw 1,000
+//! parts a few times a second), and by tiny-skia for concave outlines. Part references are
+//! handed back for the window to set in its own fonts on top.
 //!
 //! Like the vector mesh it replaces (and like OpenGL filling triangles), a pixel is
 //! covered when its centre is inside a shape, without smoothing; colours are blended
@@ -10,13 +10,13 @@
 //! 1984), dividing by 255 with the usual exact rounding (Blinn, "Three wrongs make a
 //! right", 1995; from memory).
 
-use egui::Color32;
 use tiny_skia::Pixmap;
 
-use lehr_engine::model::{Design, Point, Rect};
+use crate::model::{Design, Point, Rect};
 
-use super::export::SkiaPen;
-use super::scene::{self, Geometry, Marks, Palette, Pen, Static};
+use super::colour::{Colour, Palette};
+use super::png::{SkiaPen, skia_colour};
+use super::scene::{self, BoardFacts, Item, Marks, Pen, SceneGeometry};
 
 /// Draws the part of the board inside `view` (board millimetres; its top-left corner is
 /// pixel (0, 0)) into `pixmap` over the background colour, `scale` points per millimetre
@@ -27,16 +27,15 @@ use super::scene::{self, Geometry, Marks, Palette, Pen, Static};
 pub fn render_view(
     pixmap: &mut Pixmap,
     design: &Design,
-    st: &Static,
-    g: &Geometry,
+    st: &BoardFacts,
+    g: &SceneGeometry,
     pal: &Palette,
     marks: &Marks,
     view: Rect,
     scale: f64,
     ppp: f32,
 ) -> Vec<Label> {
-    let [r, gg, b, a] = pal.background.to_srgba_unmultiplied();
-    pixmap.fill(tiny_skia::Color::from_rgba8(r, gg, b, a));
+    pixmap.fill(skia_colour(pal.background));
     let mut pen = FastPen {
         skia: SkiaPen {
             pixmap,
@@ -51,7 +50,7 @@ pub fn render_view(
 }
 
 /// Text to set over the picture: board position, height in points, colour, text.
-pub type Label = (Point, f32, Color32, String);
+pub type Label = (Point, f32, Colour, String);
 
 struct FastPen<'a> {
     skia: SkiaPen<'a>,
@@ -64,7 +63,7 @@ impl FastPen<'_> {
     }
 
     /// Fills the pixels whose centres lie inside the axis-aligned box.
-    fn fill_box(&mut self, x0: f32, y0: f32, x1: f32, y1: f32, c: Color32) {
+    fn fill_box(&mut self, x0: f32, y0: f32, x1: f32, y1: f32, c: Colour) {
         let (w, h) = (self.skia.pixmap.width(), self.skia.pixmap.height());
         let (ix0, ix1) = (first_centre(x0.min(x1), w), first_centre(x0.max(x1), w));
         let (iy0, iy1) = (first_centre(y0.min(y1), h), first_centre(y0.max(y1), h));
@@ -76,7 +75,7 @@ impl FastPen<'_> {
     }
 
     /// Fills a convex polygon (pixel coordinates, either winding) row by row.
-    fn fill_convex(&mut self, pts: &[(f32, f32)], c: Color32) {
+    fn fill_convex(&mut self, pts: &[(f32, f32)], c: Colour) {
         if pts.len() < 3 {
             return;
         }
@@ -141,7 +140,7 @@ impl FastPen<'_> {
     /// axis: in each column (or row) the pixels whose centres are within the line's
     /// thickness measured along that column, `w / cos`, of its centre line. Ends are cut
     /// square to the stepping axis (off by less than the width from a true rectangle).
-    fn thin_line(&mut self, a: (f32, f32), b: (f32, f32), w: f32, c: Color32) {
+    fn thin_line(&mut self, a: (f32, f32), b: (f32, f32), w: f32, c: Colour) {
         let (dx, dy) = (b.0 - a.0, b.1 - a.1);
         let len = dx.hypot(dy);
         if len.is_nan() || len < 1e-3 {
@@ -198,8 +197,8 @@ struct Source {
 }
 
 impl Source {
-    fn new(c: Color32) -> Source {
-        let s = c.to_array();
+    fn new(c: Colour) -> Source {
+        let s = c.to_premultiplied();
         Source {
             packed: u32::from_le_bytes(s),
             inv: 255 - u32::from(s[3]),
@@ -220,7 +219,7 @@ impl Source {
 }
 
 /// Blends one colour over a run of premultiplied RGBA pixels ("source over").
-fn blend_span(px: &mut [u8], c: Color32) {
+fn blend_span(px: &mut [u8], c: Colour) {
     let s = Source::new(c);
     if s.inv == 0 {
         for p in px.chunks_exact_mut(4) {
@@ -243,13 +242,13 @@ impl Pen for FastPen<'_> {
         self.skia.visible(r)
     }
 
-    fn fill_rect(&mut self, r: &Rect, c: Color32) {
+    fn fill_rect(&mut self, _: Item, r: &Rect, c: Colour) {
         let (x0, y0) = self.px(r.min);
         let (x1, y1) = self.px(r.max);
         self.fill_box(x0, y0, x1, y1, c);
     }
 
-    fn stroke_rect(&mut self, r: &Rect, w: f32, c: Color32) {
+    fn stroke_rect(&mut self, _: Item, r: &Rect, w: f32, c: Colour) {
         let (x0, y1) = self.px(r.min);
         let (x1, y0) = self.px(r.max);
         let h = w * self.skia.ppp / 2.0;
@@ -260,12 +259,12 @@ impl Pen for FastPen<'_> {
         self.fill_box(x1 - h, y0 + h, x1 + h, y1 - h, c);
     }
 
-    fn line(&mut self, a: Point, b: Point, w: f32, c: Color32) {
+    fn line(&mut self, _: Item, a: Point, b: Point, w: f32, c: Colour) {
         let (a, b) = (self.px(a), self.px(b));
         self.thin_line(a, b, w * self.skia.ppp, c);
     }
 
-    fn fill_circle(&mut self, centre: Point, r: f64, c: Color32) {
+    fn fill_circle(&mut self, _: Item, centre: Point, r: f64, c: Colour) {
         let (x, y) = self.px(centre);
         let rp = (r * self.skia.scale) as f32 * self.skia.ppp;
         let n = (rp * 2.0).clamp(8.0, 64.0) as usize;
@@ -278,18 +277,18 @@ impl Pen for FastPen<'_> {
         self.fill_convex(&pts, c);
     }
 
-    fn fill_polygon(&mut self, pts: &[Point], c: Color32) {
+    fn fill_polygon(&mut self, item: Item, pts: &[Point], c: Colour) {
         // Board outlines are mostly rectangles: a convex one is filled here (tiny-skia's
         // smoothed fill samples the whole board area several times over).
         let px: Vec<(f32, f32)> = pts.iter().map(|p| self.px(*p)).collect();
         if is_convex(&px) {
             self.fill_convex(&px, c);
         } else {
-            self.skia.fill_polygon(pts, c);
+            self.skia.fill_polygon(item, pts, c);
         }
     }
 
-    fn text(&mut self, at: Point, h: f32, c: Color32, s: &str) {
+    fn text(&mut self, _: Item, at: Point, h: f32, c: Colour, s: &str) {
         self.labels.push((at, h, c, s.to_string()));
     }
 }
@@ -324,7 +323,7 @@ mod tests {
         // x 2.4..5.6 holds the centres 2.5, 3.5, 4.5, 5.5; board y 7..9 is pixel rows
         // 1..3 (y down), centres 1.5 and 2.5.
         let r = Rect::bounding([Point::new(2.4, 7.0), Point::new(5.6, 9.0)]).unwrap();
-        pen.fill_rect(&r, Color32::RED);
+        pen.fill_rect(Item::PadTop, &r, Colour::rgb(255, 0, 0));
         for y in 0..10 {
             for x in 0..10 {
                 let inside = (2..=5).contains(&x) && (1..=2).contains(&y);
@@ -344,15 +343,12 @@ mod tests {
         // Half-transparent white (premultiplied 128,128,128,128) over opaque black
         // gives 128 grey; over opaque (0,0,200) gives (128,128,128+100).
         let mut px = [0, 0, 0, 255, 0, 0, 200, 255];
-        blend_span(
-            &mut px,
-            Color32::from_rgba_premultiplied(128, 128, 128, 128),
-        );
+        blend_span(&mut px, Colour::premultiplied(128, 128, 128, 128));
         assert_eq!(px, [128, 128, 128, 255, 128, 128, 228, 255]);
         // Fully transparent leaves the pixels alone; opaque replaces them.
-        blend_span(&mut px, Color32::TRANSPARENT);
+        blend_span(&mut px, Colour::TRANSPARENT);
         assert_eq!(px, [128, 128, 128, 255, 128, 128, 228, 255]);
-        blend_span(&mut px, Color32::from_rgb(1, 2, 3));
+        blend_span(&mut px, Colour::rgb(1, 2, 3));
         assert_eq!(px, [1, 2, 3, 255, 1, 2, 3, 255]);
     }
 
@@ -362,13 +358,13 @@ mod tests {
         // arithmetic must give round(s + d * (255 - sa) / 255) per channel, as in
         // floating point (the premultiplied source-over equation).
         for sa in [0u8, 1, 64, 110, 128, 200, 254] {
-            let c = Color32::from_rgba_premultiplied(sa / 2, sa, sa / 3, sa);
+            let c = Colour::premultiplied(sa / 2, sa, sa / 3, sa);
             let s = Source::new(c);
             for d in 0..=255u8 {
                 let dst = u32::from_le_bytes([d / 4, d / 2, d, d]);
                 let out = s.over(dst).to_le_bytes();
                 for (k, dv) in [d / 4, d / 2, d, d].into_iter().enumerate() {
-                    let want = f64::from(c.to_array()[k])
+                    let want = f64::from(c.to_premultiplied()[k])
                         + (f64::from(dv) * f64::from(255 - sa) / 255.0).round();
                     assert_eq!(f64::from(out[k]), want, "sa {sa} d {d} channel {k}");
                 }
@@ -404,13 +400,19 @@ mod tests {
         // A diagonal 2 px wide, from pixel (2, 18) to (18, 2) in board terms (y up):
         // pixels along x = y (screen) are filled, far corners are not.
         pen.line(
+            Item::TrackTop,
             Point::new(2.0, 2.0),
             Point::new(18.0, 18.0),
             2.0,
-            Color32::WHITE,
+            Colour::rgb(255, 255, 255),
         );
         // A dot of radius 3 at (15, 5) on the board, screen (15, 15), clear of the line.
-        pen.fill_circle(Point::new(15.0, 5.0), 3.0, Color32::BLUE);
+        pen.fill_circle(
+            Item::Via,
+            Point::new(15.0, 5.0),
+            3.0,
+            Colour::rgb(0, 0, 255),
+        );
         for i in 3..17 {
             // Board (i + 0.5, i + 0.5) is screen pixel (i, 19 - i).
             assert_eq!(pixel(&p, i, 19 - i), [255, 255, 255, 255], "line at {i}");

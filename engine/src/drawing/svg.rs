@@ -1,5 +1,5 @@
-//! The board as an SVG picture, drawn by the same scene code as the canvas and the PNG
-//! export (`scene::draw` through a [`Pen`]), and the two pictures `lehr export` writes.
+//! The board as an SVG picture, drawn by the same scene code as the window's canvas and
+//! the PNG picture (`scene::draw` through a [`Pen`]).
 //!
 //! The pen works in board millimetres: the SVG's user unit is 1 mm (`width`/`height` in
 //! mm, `viewBox` from the board's bounds), y flipped so the board's y points up. The scene
@@ -7,24 +7,18 @@
 //! scale the window's PNG export uses, so both pictures look alike.
 //!
 //! Each element carries a class naming what it is (`pad-top`, `track-bottom`, `via`,
-//! `courtyard`, `reference`, ...) and elements of one class are grouped in a `<g>` of that
-//! id, so an editor can show or hide a layer. The groups are stacked in a fixed order
-//! ([`STACK`]: board, keep-outs, tracks, vias, courtyards, bodies, pads, holes, edges,
-//! references), which is the scene's order for each part; within a group the scene's
-//! order is kept. The scene's `Pen` calls say how to draw, not what; the pen recognises
-//! what by the palette colour the scene chose for it (every palette colour is distinct).
+//! `courtyard`, `reference`, ...: [`Item::name`] of the item the scene gives with the
+//! shape) and elements of one item are grouped in a `<g>` of that id, so an editor can
+//! show or hide a layer. The groups are stacked in the order of [`Item::ALL`] (board,
+//! keep-outs, tracks, vias, courtyards, bodies, pads, holes, edges, references), which is
+//! the scene's order for each part; within a group the scene's order is kept.
 
 use std::fmt::Write as _;
 
-use egui::Color32;
+use crate::model::{Design, Point, Rect};
 
-use lehr_engine::model::{Design, Point, Rect};
-
-use super::export;
-use super::scene::{self, Geometry, Marks, Palette, Pen, Static};
-
-/// The window's safety caution, for `lehr export` to show beside the files it writes.
-pub(crate) use super::caution::caution;
+use super::colour::{Colour, Palette};
+use super::scene::{self, BoardFacts, Item, Marks, Pen, SceneGeometry};
 
 /// Pixels per millimetre the scene's pixel sizes are taken at (the PNG export's scale).
 pub const PX_PER_MM: f64 = 40.0;
@@ -32,8 +26,8 @@ pub const PX_PER_MM: f64 = 40.0;
 /// The board as an SVG document: outline, keep-outs, copper of both layers, vias, pads,
 /// courtyards, bodies and part references, on the light palette.
 pub fn board_svg(design: &Design) -> String {
-    let st = Static::new(design);
-    let mut g = Geometry::build(design, &st, None, None);
+    let st = BoardFacts::new(design);
+    let mut g = SceneGeometry::build(design, &st, None, None);
     // Wiring still to do is a working aid of the window, not part of the board.
     g.unrouted.clear();
     let pal = Palette::light();
@@ -46,81 +40,20 @@ pub fn board_svg(design: &Design) -> String {
     pen.finish(&design.board.name)
 }
 
-/// The board as a PNG picture at [`PX_PER_MM`] (reduced for huge boards), with references,
-/// on the light palette; the same drawing as [`board_svg`].
-pub fn board_png(design: &Design) -> Result<Vec<u8>, String> {
-    let st = Static::new(design);
-    let mut g = Geometry::build(design, &st, None, None);
-    g.unrouted.clear();
-    export::png(design, &st, &g, &Palette::light(), PX_PER_MM, true)
-}
-
-/// What a colour of the palette stands for, as an SVG class name.
-fn classes(pal: &Palette) -> Vec<(Color32, &'static str)> {
-    vec![
-        (pal.board, "board"),
-        (pal.outline, "outline"),
-        (pal.keepout_fill, "keepout"),
-        (pal.keepout_edge, "keepout-edge"),
-        (pal.courtyard, "courtyard-edge"),
-        (pal.courtyard_fill, "courtyard"),
-        (pal.locked_fill, "courtyard-locked"),
-        (pal.locked_edge, "courtyard-locked-edge"),
-        (pal.body, "body"),
-        (pal.pad_top, "pad-top"),
-        (pal.pad_bottom, "pad-bottom"),
-        (pal.drill, "drill"),
-        (pal.unrouted, "unrouted"),
-        (pal.highlight, "highlight"),
-        (pal.conflict, "conflict"),
-        (pal.selected, "selected"),
-        (pal.hovered, "hovered"),
-        (pal.label, "reference"),
-        (pal.track_top, "track-top"),
-        (pal.track_bottom, "track-bottom"),
-        (pal.via, "via"),
-    ]
-}
-
-/// The order the groups are stacked in, bottom first; a class not listed goes on top.
-const STACK: [&str; 21] = [
-    "board",
-    "keepout",
-    "keepout-edge",
-    "outline",
-    "track-bottom",
-    "track-top",
-    "via",
-    "courtyard",
-    "courtyard-locked",
-    "body",
-    "pad-bottom",
-    "pad-top",
-    "drill",
-    "courtyard-edge",
-    "courtyard-locked-edge",
-    "hovered",
-    "conflict",
-    "selected",
-    "unrouted",
-    "highlight",
-    "reference",
-];
-
-struct SvgPen {
+/// Writes SVG elements, one group per [`Item`].
+pub struct SvgPen {
     bounds: Rect,
-    background: Color32,
-    classes: Vec<(Color32, &'static str)>,
-    /// Elements per class, classes in the order first drawn.
-    groups: Vec<(&'static str, String)>,
+    background: Colour,
+    /// Elements per item, items in the order first drawn.
+    groups: Vec<(Item, String)>,
 }
 
 impl SvgPen {
-    fn new(bounds: Rect, pal: &Palette) -> SvgPen {
+    /// A pen for a picture of the board area `bounds` on the palette's background.
+    pub fn new(bounds: Rect, pal: &Palette) -> SvgPen {
         SvgPen {
             bounds,
             background: pal.background,
-            classes: classes(pal),
             groups: Vec::new(),
         }
     }
@@ -130,19 +63,11 @@ impl SvgPen {
         (num(p.x - self.bounds.min.x), num(self.bounds.max.y - p.y))
     }
 
-    fn class_of(&self, c: Color32) -> &'static str {
-        self.classes
-            .iter()
-            .find(|(k, _)| *k == c)
-            .map_or("other", |(_, n)| n)
-    }
-
-    fn push(&mut self, c: Color32, element: String) {
-        let class = self.class_of(c);
-        let i = match self.groups.iter().position(|(n, _)| *n == class) {
+    fn push(&mut self, item: Item, element: String) {
+        let i = match self.groups.iter().position(|(n, _)| *n == item) {
             Some(i) => i,
             None => {
-                self.groups.push((class, String::new()));
+                self.groups.push((item, String::new()));
                 self.groups.len() - 1
             }
         };
@@ -152,10 +77,10 @@ impl SvgPen {
         g.push('\n');
     }
 
-    fn finish(mut self, title: &str) -> String {
-        let rank = |c: &str| STACK.iter().position(|k| *k == c).unwrap_or(STACK.len());
-        // Stable: classes off the list keep the order they were first drawn in.
-        self.groups.sort_by_key(|(c, _)| rank(c));
+    /// The SVG document, titled `title`.
+    pub fn finish(mut self, title: &str) -> String {
+        let rank = |i: &Item| Item::ALL.iter().position(|k| k == i);
+        self.groups.sort_by_key(|(i, _)| rank(i));
         let (w, h) = (num(self.bounds.width()), num(self.bounds.height()));
         let mut s = String::new();
         s.push_str("<?xml version=\"1.0\" encoding=\"UTF-8\"?>\n");
@@ -170,8 +95,8 @@ impl SvgPen {
             "  <rect class=\"background\" x=\"0\" y=\"0\" width=\"{w}\" height=\"{h}\" {}/>",
             fill(self.background)
         );
-        for (class, body) in &self.groups {
-            let _ = writeln!(s, "  <g id=\"{class}\">");
+        for (item, body) in &self.groups {
+            let _ = writeln!(s, "  <g id=\"{}\">", item.name());
             s.push_str(body);
             s.push_str("  </g>\n");
         }
@@ -192,12 +117,12 @@ fn num(v: f64) -> String {
     }
 }
 
-fn hex(c: Color32) -> (String, String) {
-    let [r, g, b, a] = c.to_srgba_unmultiplied();
+fn hex(c: Colour) -> (String, String) {
+    let [r, g, b, a] = c.unmultiplied();
     (format!("#{r:02x}{g:02x}{b:02x}"), num(f64::from(a) / 255.0))
 }
 
-fn fill(c: Color32) -> String {
+fn fill(c: Colour) -> String {
     let (rgb, a) = hex(c);
     if a == "1" {
         format!("fill=\"{rgb}\"")
@@ -206,7 +131,7 @@ fn fill(c: Color32) -> String {
     }
 }
 
-fn stroke(c: Color32, width_mm: f64) -> String {
+fn stroke(c: Colour, width_mm: f64) -> String {
     let (rgb, a) = hex(c);
     let op = if a == "1" {
         String::new()
@@ -245,52 +170,52 @@ impl Pen for SvgPen {
         true
     }
 
-    fn fill_rect(&mut self, r: &Rect, c: Color32) {
+    fn fill_rect(&mut self, item: Item, r: &Rect, c: Colour) {
         let (x, y) = self.xy(Point::new(r.min.x, r.max.y));
         let e = format!(
             "<rect class=\"{}\" x=\"{x}\" y=\"{y}\" width=\"{}\" height=\"{}\" {}/>",
-            self.class_of(c),
+            item.name(),
             num(r.width()),
             num(r.height()),
             fill(c)
         );
-        self.push(c, e);
+        self.push(item, e);
     }
 
-    fn stroke_rect(&mut self, r: &Rect, width_px: f32, c: Color32) {
+    fn stroke_rect(&mut self, item: Item, r: &Rect, width_px: f32, c: Colour) {
         let (x, y) = self.xy(Point::new(r.min.x, r.max.y));
         let e = format!(
             "<rect class=\"{}\" x=\"{x}\" y=\"{y}\" width=\"{}\" height=\"{}\" {}/>",
-            self.class_of(c),
+            item.name(),
             num(r.width()),
             num(r.height()),
             stroke(c, f64::from(width_px) / PX_PER_MM)
         );
-        self.push(c, e);
+        self.push(item, e);
     }
 
-    fn line(&mut self, a: Point, b: Point, width_px: f32, c: Color32) {
+    fn line(&mut self, item: Item, a: Point, b: Point, width_px: f32, c: Colour) {
         let ((x1, y1), (x2, y2)) = (self.xy(a), self.xy(b));
         let e = format!(
             "<line class=\"{}\" x1=\"{x1}\" y1=\"{y1}\" x2=\"{x2}\" y2=\"{y2}\" {}/>",
-            self.class_of(c),
+            item.name(),
             stroke(c, f64::from(width_px) / PX_PER_MM)
         );
-        self.push(c, e);
+        self.push(item, e);
     }
 
-    fn fill_circle(&mut self, centre: Point, radius_mm: f64, c: Color32) {
+    fn fill_circle(&mut self, item: Item, centre: Point, radius_mm: f64, c: Colour) {
         let (x, y) = self.xy(centre);
         let e = format!(
             "<circle class=\"{}\" cx=\"{x}\" cy=\"{y}\" r=\"{}\" {}/>",
-            self.class_of(c),
+            item.name(),
             num(radius_mm),
             fill(c)
         );
-        self.push(c, e);
+        self.push(item, e);
     }
 
-    fn fill_polygon(&mut self, pts: &[Point], c: Color32) {
+    fn fill_polygon(&mut self, item: Item, pts: &[Point], c: Colour) {
         if pts.len() < 3 {
             return;
         }
@@ -303,24 +228,24 @@ impl Pen for SvgPen {
             .collect();
         let e = format!(
             "<polygon class=\"{}\" points=\"{}\" fill-rule=\"evenodd\" {}/>",
-            self.class_of(c),
+            item.name(),
             points.join(" "),
             fill(c)
         );
-        self.push(c, e);
+        self.push(item, e);
     }
 
-    fn text(&mut self, at: Point, height_px: f32, c: Color32, s: &str) {
+    fn text(&mut self, item: Item, at: Point, height_px: f32, c: Colour, s: &str) {
         let (x, y) = self.xy(at);
         let e = format!(
             "<text class=\"{}\" x=\"{x}\" y=\"{y}\" font-family=\"monospace\" \
              font-size=\"{}\" text-anchor=\"middle\" dominant-baseline=\"central\" {}>{}</text>",
-            self.class_of(c),
+            item.name(),
             num(f64::from(height_px) / PX_PER_MM),
             fill(c),
             escape(s)
         );
-        self.push(c, e);
+        self.push(item, e);
     }
 }
 
@@ -329,22 +254,39 @@ mod tests {
     use super::*;
 
     #[test]
-    fn palette_colours_are_distinct_so_classes_are_unambiguous() {
-        for pal in [Palette::light(), Palette::dark()] {
-            let c = classes(&pal);
-            for (i, a) in c.iter().enumerate() {
-                for b in &c[i + 1..] {
-                    assert_ne!(a.0, b.0, "{} and {} share a colour", a.1, b.1);
-                }
+    fn every_item_has_its_own_name_and_place_in_the_stack() {
+        for (i, a) in Item::ALL.iter().enumerate() {
+            for b in &Item::ALL[i + 1..] {
+                assert_ne!(a, b);
+                assert_ne!(a.name(), b.name());
             }
         }
     }
 
     #[test]
-    fn every_class_has_its_place_in_the_stack() {
-        for (_, class) in classes(&Palette::light()) {
-            assert!(STACK.contains(&class), "{class}");
-        }
+    fn groups_come_from_the_item_not_the_colour() {
+        // Two items in one colour still land in their own groups, stacked by item (the
+        // pad drawn first goes above the track drawn after it), and a group holds its
+        // items in the order drawn.
+        let pal = Palette::light();
+        let bounds = Rect::bounding([Point::new(0.0, 0.0), Point::new(10.0, 5.0)]).unwrap();
+        let mut pen = SvgPen::new(bounds, &pal);
+        let red = Colour::rgb(0xff, 0, 0);
+        let pad = Rect::bounding([Point::new(1.0, 1.0), Point::new(2.0, 2.0)]).unwrap();
+        pen.fill_rect(Item::PadTop, &pad, red);
+        let (a, b) = (Point::new(0.0, 0.0), Point::new(10.0, 5.0));
+        pen.line(Item::TrackBottom, a, b, 8.0, red);
+        pen.fill_circle(Item::TrackBottom, b, 0.1, red);
+        let svg = pen.finish("t");
+        let track = svg.find("<g id=\"track-bottom\">").expect("a track group");
+        let pads = svg.find("<g id=\"pad-top\">").expect("a pad group");
+        assert!(track < pads, "{svg}");
+        assert_eq!(svg.matches("<g ").count(), 2);
+        assert_eq!(svg.matches("class=\"track-bottom\"").count(), 2);
+        assert_eq!(svg.matches("class=\"pad-top\"").count(), 1);
+        let line = svg.find("<line class=\"track-bottom\"").unwrap();
+        let dot = svg.find("<circle class=\"track-bottom\"").unwrap();
+        assert!(track < line && line < dot && dot < pads, "{svg}");
     }
 
     #[test]
@@ -354,9 +296,7 @@ mod tests {
 
     #[test]
     fn the_picture_holds_every_pad() {
-        let design =
-            lehr_engine::model::resolve(lehr_engine::place::generate::grid_board(3, 2.54, 1))
-                .unwrap();
+        let design = crate::model::resolve(crate::place::generate::grid_board(3, 2.54, 1)).unwrap();
         let svg = board_svg(&design);
         let pads: usize = design.footprints.iter().map(|f| f.pads.len()).sum();
         let drawn = svg.matches("class=\"pad-top\"").count();
