@@ -9,7 +9,7 @@
 //!
 //! Each schedule is one file of this folder holding one [`Kind`]: its name, its formula,
 //! its [`Param`]eters and its step (`geometric`, `lundy_mees`, `lam_delosme`, `huang`,
-//! `descent`; each file's docs give its formula). The list at the [`schedules!`] call
+//! `descent`; each file's docs give its formula). The list at the `schedules!` call
 //! below is the registry: the command line, the window, the settings files and the tests
 //! take every schedule and parameter from it.
 //!
@@ -21,7 +21,7 @@
 //! temperature, and the budget still sets the run's length.
 //!
 //! **Adding a schedule**: write `NAME.rs` beside this file with a `pub const KIND: Kind`
-//! (name, formula, parameters, step), and add `NAME::Const` to the [`schedules!`] list
+//! (name, formula, parameters, step), and add `NAME::Const` to the `schedules!` list
 //! below (`Const` becomes `Schedule::Const`, the schedule with every parameter from the
 //! budget).
 
