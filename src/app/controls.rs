@@ -1,5 +1,5 @@
 //! The controls panel: run, pause, step, reheat, reset, descent only, finish; the cooling
-//! schedule and its parameter, the start temperature, seed and effort; the energy weights;
+//! schedule and its parameters, the start temperature, seed and effort; the energy weights;
 //! the animation speed; and the status line.
 
 use serde::{Deserialize, Serialize};
@@ -13,8 +13,8 @@ use super::Action;
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 #[serde(default)]
 pub struct ControlSettings {
-    /// Index into [`Schedule::ALL`].
-    pub kind: usize,
+    /// The schedule and the parameters set explicitly.
+    pub schedule: Schedule,
     /// Index into [`STARTS`].
     pub start: usize,
     /// Annealing chains per start (replica exchange).
@@ -37,10 +37,7 @@ impl Default for ControlSettings {
     fn default() -> Self {
         let d = AnnealOptions::default();
         ControlSettings {
-            kind: Schedule::ALL
-                .iter()
-                .position(|&k| k == d.schedule)
-                .unwrap_or(0),
+            schedule: d.schedule,
             start: STARTS.iter().position(|&k| k == d.start).unwrap_or(0),
             replicas: d.replicas,
             speed: 20_000,
@@ -55,7 +52,7 @@ impl Default for ControlSettings {
 
 impl ControlSettings {
     pub fn schedule(&self) -> Schedule {
-        Schedule::ALL[self.kind.min(Schedule::ALL.len() - 1)]
+        self.schedule
     }
 
     pub fn start(&self) -> Start {
@@ -86,6 +83,8 @@ pub const KEYS_RUN: &str = "Space";
 #[derive(Debug, Default)]
 pub struct Controls {
     pub weights: Option<Weights>,
+    /// The schedule last sent to the engine (`None` before the first frame).
+    sent: Option<Schedule>,
 }
 
 /// A label followed by a widget it names (so screen readers and tests find it by label).
@@ -177,36 +176,7 @@ impl Controls {
 
         ui.separator();
         ui.heading("Schedule");
-        let before = s.schedule();
-        labelled(ui, "schedule", |ui| {
-            egui::ComboBox::from_id_salt("schedule-kind")
-                .selected_text(s.schedule().name())
-                .show_ui(ui, |ui| {
-                    for (k, sch) in Schedule::ALL.iter().enumerate() {
-                        ui.selectable_value(&mut s.kind, k, sch.name());
-                    }
-                })
-                .response
-        });
-        ui.small(s.schedule().formula());
-        if let Some(snap) = snap
-            && snap.schedule == Some(s.schedule())
-            && !s.schedule().is_descent()
-        {
-            let name = match s.schedule() {
-                Schedule::Geometric => "alpha",
-                Schedule::LundyMees => "beta",
-                _ => "lambda",
-            };
-            ui.small(format!(
-                "{name} {} (set by the move budget, {} moves)",
-                sig(snap.schedule_parameter),
-                big(snap.budget as f64)
-            ));
-        }
-        if s.schedule() != before {
-            actions.push(Action::SetSchedule(s.schedule()));
-        }
+        self.schedule_ui(ui, s, snap, actions);
         labelled(ui, "start", |ui| {
             egui::ComboBox::from_id_salt("start-kind")
                 .selected_text(s.start().name())
@@ -282,6 +252,86 @@ impl Controls {
             }
         } else {
             ui.label("waiting for the engine");
+        }
+    }
+}
+
+impl Controls {
+    /// The schedule box, made from the engine's list of schedules: the schedule, its
+    /// formula, and per parameter a box to set it (unset: from the budget, the value the
+    /// run derived shown). A change reaches the engine once no value is being dragged.
+    fn schedule_ui(
+        &mut self,
+        ui: &mut egui::Ui,
+        s: &mut ControlSettings,
+        snap: Option<&Snapshot>,
+        actions: &mut Vec<Action>,
+    ) {
+        labelled(ui, "schedule", |ui| {
+            egui::ComboBox::from_id_salt("schedule-kind")
+                .selected_text(s.schedule.name())
+                .show_ui(ui, |ui| {
+                    for sch in Schedule::ALL {
+                        let on = sch.name() == s.schedule.name();
+                        if ui.selectable_label(on, sch.name()).clicked() && !on {
+                            s.schedule = sch;
+                        }
+                    }
+                })
+                .response
+        });
+        ui.small(s.schedule.formula());
+        // The run's derived first parameter, when it runs this schedule.
+        let derived = snap.filter(|n| n.schedule.is_some_and(|x| x.name() == s.schedule.name()));
+        let mut hold = false;
+        for (i, p) in s.schedule.params().iter().enumerate() {
+            ui.horizontal(|ui| {
+                let mut set = s.schedule.value(i).is_some();
+                let shown = derived.filter(|_| i == 0);
+                let hover = format!(
+                    "{}: {}; {}. Unset: {}",
+                    p.label,
+                    p.help,
+                    p.range_text(),
+                    p.default
+                );
+                if ui.checkbox(&mut set, p.name).on_hover_text(hover).changed() {
+                    let start = shown
+                        .map(|n| n.schedule_parameter)
+                        .filter(|v| p.allows(*v))
+                        .unwrap_or(p.example);
+                    // In range by construction.
+                    let _ = s.schedule.set(i, set.then_some(start));
+                }
+                if let Some(mut v) = s.schedule.value(i) {
+                    let speed = (v.abs() * 0.005).max(1e-4);
+                    let r = ui.add(
+                        egui::DragValue::new(&mut v)
+                            .range(p.widget_range())
+                            .speed(speed),
+                    );
+                    hold |= r.dragged() || r.has_focus();
+                    if r.changed() && p.allows(v) {
+                        let _ = s.schedule.set(i, Some(v));
+                    }
+                } else if let Some(n) = shown {
+                    ui.small(format!(
+                        "{} (set by the move budget, {} moves)",
+                        sig(n.schedule_parameter),
+                        big(n.budget as f64)
+                    ));
+                } else {
+                    ui.small(p.default);
+                }
+            });
+        }
+        match self.sent {
+            None => self.sent = Some(s.schedule),
+            Some(prev) if prev != s.schedule && !hold => {
+                actions.push(Action::SetSchedule(s.schedule));
+                self.sent = Some(s.schedule);
+            }
+            Some(_) => {}
         }
     }
 }
@@ -377,9 +427,9 @@ mod tests {
         // The window's defaults are the command line's.
         assert_eq!(s.options(None), AnnealOptions::default());
         assert_eq!(s.schedule(), Schedule::Geometric);
-        s.kind = 2;
+        s.schedule = Schedule::ALL[2];
         assert_eq!(s.schedule(), Schedule::LamDelosme);
-        s.kind = 4;
+        s.schedule = Schedule::ALL[4];
         assert!(s.schedule().is_descent());
         s.auto_start = false;
         s.start_temperature = 3.0;

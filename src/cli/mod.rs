@@ -27,13 +27,13 @@ use crate::shared::board_stem;
     long_about = "Places and routes small circuit boards by simulated annealing.\n\n\
         Run without a command to open the window on the built-in sample board."
 )]
-struct Cli {
+pub(crate) struct Cli {
     #[command(subcommand)]
-    command: Option<Command>,
+    pub(crate) command: Option<Command>,
 }
 
 #[derive(Subcommand, Debug)]
-enum Command {
+pub(crate) enum Command {
     /// Open the window on a board (the built-in sample board when none is given).
     Open(open::OpenArgs),
     /// Place every unlocked part of a board and write the placed board.

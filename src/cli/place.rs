@@ -22,10 +22,8 @@ pub struct PlaceArgs {
     /// placement, whatever --threads.
     #[arg(long, default_value_t = 1)]
     seed: u64,
-    /// Cooling schedule: geometric, lundy-mees, lam-delosme, huang or descent
-    /// (zero-temperature baseline). Each plans its cooling over the move budget.
-    #[arg(long, default_value = "geometric", value_parser = parse_schedule)]
-    schedule: Schedule,
+    #[command(flatten)]
+    schedule: ScheduleArgs,
     /// The move budget: every move of the run, all starts and chains together; every
     /// schedule plans to use it up. Default: 25,000 N^(4/3) for N movable parts (1 to
     /// 150 million), times --effort.
@@ -72,8 +70,58 @@ pub struct PlaceArgs {
     log: Option<PathBuf>,
 }
 
+/// The place command's schedule arguments; the schedules, their parameters, ranges and
+/// help come from the engine's list ([`lehr_engine::place::schedule::ALL`]).
+#[derive(Args, Debug)]
+struct ScheduleArgs {
+    #[arg(long, default_value_t = Schedule::default(), value_parser = parse_schedule,
+          help = schedule_help(false), long_help = schedule_help(true))]
+    schedule: Schedule,
+    /// Set a parameter of the schedule (repeatable); the others follow from the budget.
+    #[arg(long = "param", value_name = "NAME=VALUE", value_parser = parse_param)]
+    params: Vec<(String, f64)>,
+}
+
+impl ScheduleArgs {
+    /// The schedule with its parameters, each checked against its range.
+    fn schedule(&self) -> Result<Schedule, place::schedule::ScheduleError> {
+        self.params
+            .iter()
+            .try_fold(self.schedule, |s, (name, v)| s.with(name, *v))
+    }
+}
+
+/// `--schedule`'s help: the names (`-h`), or every schedule with its parameters.
+fn schedule_help(long: bool) -> String {
+    let names: Vec<&str> = place::schedule::ALL.iter().map(|k| k.name).collect();
+    let short = format!(
+        "Cooling schedule: {}; each plans its cooling over the move budget",
+        names.join(", ")
+    );
+    if long {
+        format!(
+            "{short}. Set a parameter with --param NAME=VALUE.\n\n{}",
+            place::schedule::help_text().trim_end()
+        )
+    } else {
+        format!("{short} (--help lists their parameters)")
+    }
+}
+
 fn parse_schedule(s: &str) -> Result<Schedule, String> {
     s.parse()
+        .map_err(|e: place::schedule::ScheduleError| e.to_string())
+}
+
+fn parse_param(s: &str) -> Result<(String, f64), String> {
+    let (name, v) = s
+        .split_once('=')
+        .ok_or_else(|| format!("expected NAME=VALUE, got \"{s}\""))?;
+    let v = v
+        .trim()
+        .parse()
+        .map_err(|_| format!("{name}: \"{v}\" is not a number"))?;
+    Ok((name.trim().to_string(), v))
 }
 
 fn parse_start(s: &str) -> Result<Start, String> {
@@ -82,7 +130,7 @@ fn parse_start(s: &str) -> Result<Start, String> {
 
 pub fn run(a: PlaceArgs) -> Result<ExitCode> {
     let design = lehr_engine::io::load_board(&a.board)?;
-    let opts = a.options();
+    let opts = a.options()?;
     lehr_engine::place::options::check_options(&opts)?;
     let out = a
         .out
@@ -120,11 +168,12 @@ pub fn run(a: PlaceArgs) -> Result<ExitCode> {
 }
 
 impl PlaceArgs {
-    /// The annealing options the flags ask for (not yet checked).
-    fn options(&self) -> AnnealOptions {
-        AnnealOptions {
+    /// The annealing options the flags ask for (the schedule's parameters checked, the
+    /// rest not yet).
+    fn options(&self) -> Result<AnnealOptions, place::schedule::ScheduleError> {
+        Ok(AnnealOptions {
             seed: self.seed,
-            schedule: self.schedule,
+            schedule: self.schedule.schedule()?,
             max_moves: self.moves,
             effort: self.effort,
             start_acceptance: self.start_acceptance,
@@ -135,7 +184,7 @@ impl PlaceArgs {
             multilevel: self.multilevel,
             start: self.start,
             ..AnnealOptions::default()
-        }
+        })
     }
 }
 
@@ -227,5 +276,81 @@ fn print_report(placed: &Placed, out: Option<&Path>, optimum: Option<f64>) {
     }
     if let Some(out) = out {
         println!("wrote {}", out.display());
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::cli::{Cli, Command};
+    use clap::{CommandFactory, Parser};
+
+    /// `--schedule` and `--param` make the schedule; bad names and values are refused
+    /// with the parameter's name and range.
+    #[test]
+    fn schedule_arguments_make_the_schedule() {
+        let parse = |args: &[&str]| {
+            let cli = Cli::try_parse_from(["lehr", "place", "b.ron"].iter().chain(args))
+                .map_err(|e| e.to_string())?;
+            let Some(Command::Place(a)) = cli.command else {
+                unreachable!()
+            };
+            a.schedule.schedule().map_err(|e| e.to_string())
+        };
+        assert_eq!(parse(&[]).unwrap(), Schedule::default());
+        assert_eq!(
+            parse(&["--schedule", "lam-delosme", "--param", "target=0.5"]).unwrap(),
+            Schedule::LamDelosme.with("target", 0.5).unwrap()
+        );
+        let e = parse(&["--param", "alpha=1.5"]).unwrap_err();
+        assert!(
+            e.contains("alpha must be greater than 0 and less than 1"),
+            "{e}"
+        );
+        let e = parse(&["--schedule", "huang", "--param", "alpha=0.5"]).unwrap_err();
+        assert!(e.contains("no parameter \"alpha\""), "{e}");
+        assert!(parse(&["--param", "alpha"]).is_err());
+    }
+
+    /// The help lists every schedule and parameter of the engine's list.
+    #[test]
+    fn place_help_lists_every_schedule_and_parameter() {
+        let mut cmd = Cli::command();
+        let help = cmd
+            .find_subcommand_mut("place")
+            .unwrap()
+            .render_long_help()
+            .to_string();
+        for k in place::schedule::ALL {
+            assert!(help.contains(k.name), "{}", k.name);
+            for p in k.params {
+                assert!(
+                    help.contains(&format!("{}: {}", p.name, p.label)),
+                    "{}",
+                    p.name
+                );
+            }
+        }
+    }
+
+    /// README.md and docs/ARCHITECTURE.md name every schedule, and the README every
+    /// parameter.
+    #[test]
+    fn the_docs_name_every_schedule_and_parameter() {
+        let readme = include_str!("../../README.md");
+        let arch = include_str!("../../docs/ARCHITECTURE.md");
+        for k in place::schedule::ALL {
+            let code = format!("`{}`", k.name);
+            assert!(readme.contains(&code), "README.md does not name {code}");
+            assert!(arch.contains(&code), "ARCHITECTURE.md does not name {code}");
+            for p in k.params {
+                let code = format!("`{}`", p.name);
+                assert!(
+                    readme.contains(&code),
+                    "README.md does not name {} {code}",
+                    k.name
+                );
+            }
+        }
     }
 }

@@ -272,8 +272,8 @@ impl Annealer {
             group_parts: Vec::new(),
             opts,
         };
-        a.t0 = match (a.opts.schedule, a.opts.start_temperature) {
-            (Schedule::Descent, _) => 0.0,
+        a.t0 = match (a.opts.schedule.is_descent(), a.opts.start_temperature) {
+            (true, _) => 0.0,
             (_, Some(t)) => t,
             (_, None) => a.sample_start_temperature(a.opts.start_acceptance),
         };

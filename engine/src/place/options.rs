@@ -3,13 +3,15 @@
 use serde::{Deserialize, Serialize};
 
 use super::layout::{LayoutError, Weights};
-use super::schedule::Schedule;
+use super::schedule::{Schedule, ScheduleError};
 
 /// Settings of a placement run. One set of defaults, [`AnnealOptions::default`].
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 #[serde(default)]
 pub struct AnnealOptions {
     pub seed: u64,
+    /// The cooling schedule and any parameters set explicitly (the others follow from
+    /// the budget); in settings files `"Geometric"` or `{"Geometric": {"alpha": 0.95}}`.
     pub schedule: Schedule,
     /// The move budget: all moves of the run, every replica and start together. Every
     /// schedule plans its cooling to use it up exactly. `None`: [`default_budget`] times
@@ -153,6 +155,8 @@ pub enum PlaceError {
     LockedUnplaced(String),
     #[error("the placement grid must be positive, got {0} mm")]
     BadGrid(f64),
+    #[error(transparent)]
+    Schedule(#[from] ScheduleError),
     #[error("{what} must be {range}, got {value}")]
     BadOption {
         what: &'static str,
@@ -164,6 +168,7 @@ pub enum PlaceError {
 /// Checks every option's range.
 pub fn check_options(o: &AnnealOptions) -> Result<(), PlaceError> {
     let bad = |what, range, value: f64| Err(PlaceError::BadOption { what, range, value });
+    o.schedule.check()?;
     if !(o.effort.is_finite() && o.effort > 0.0 && o.effort <= 1e4) {
         return bad("effort", "between 0 and 10000", o.effort);
     }
