@@ -26,10 +26,11 @@ pub fn chip(reference: &str, size: &str, at: Point, rotation: f64) -> Part {
 pub fn smd(number: &str, at: Point, w: f64, h: f64, shape: PadShape) -> PadSpec {
     PadSpec {
         number: number.into(),
-        at,
-        size: (w, h),
+        centre: at,
+        width: w,
+        height: h,
         shape,
-        drill: None,
+        hole: None,
     }
 }
 
@@ -37,10 +38,11 @@ pub fn smd(number: &str, at: Point, w: f64, h: f64, shape: PadShape) -> PadSpec 
 pub fn tht(number: &str, at: Point, d: f64, drill: f64) -> PadSpec {
     PadSpec {
         number: number.into(),
-        at,
-        size: (d, d),
+        centre: at,
+        width: d,
+        height: d,
         shape: PadShape::Circle,
-        drill: Some(drill),
+        hole: Some(drill),
     }
 }
 
@@ -70,7 +72,7 @@ pub fn soic8(reference: &str, at: Point) -> Part {
             p(x, -2.7),
             0.6,
             1.5,
-            PadShape::RoundRect,
+            PadShape::Rounded,
         ));
     }
     for i in 0..4 {
@@ -80,7 +82,7 @@ pub fn soic8(reference: &str, at: Point) -> Part {
             p(x, 2.7),
             0.6,
             1.5,
-            PadShape::RoundRect,
+            PadShape::Rounded,
         ));
     }
     custom(reference, pads, at)

@@ -67,7 +67,7 @@ fn axial(pitch: f64, length: f64, diameter: f64) -> FootprintSpec {
 }
 
 fn hole(drill: f64, pad: Option<f64>) -> FootprintSpec {
-    FootprintSpec::MountingHole { drill, pad }
+    FootprintSpec::MountingHole { hole: drill, pad }
 }
 
 /// Every variant with typical parameters, and the number of pads each should have.
@@ -133,10 +133,11 @@ fn typical() -> Vec<(FootprintSpec, usize)> {
         FootprintSpec::Custom {
             pads: vec![PadSpec {
                 number: "1".into(),
-                at: Point::new(0.0, 0.0),
-                size: (1.0, 1.0),
+                centre: Point::new(0.0, 0.0),
+                width: 1.0,
+                height: 1.0,
                 shape: PadShape::Circle,
-                drill: Some(0.5),
+                hole: Some(0.5),
             }],
             courtyard: None,
         },
@@ -301,10 +302,10 @@ fn surface_mount_and_through_hole_kinds() {
             let hole = matches!(spec, FootprintSpec::MountingHole { .. });
             for p in &fp.pads {
                 if p.number == "1" && !hole {
-                    assert_eq!(p.shape, PadShape::Rect, "{}", fp.name);
+                    assert_eq!(p.shape, PadShape::Rectangle, "{}", fp.name);
                 } else {
                     assert!(
-                        matches!(p.shape, PadShape::Circle | PadShape::Oval),
+                        matches!(p.shape, PadShape::Circle | PadShape::Obround),
                         "{}: pad {}",
                         fp.name,
                         p.number

@@ -757,14 +757,14 @@ fn footprint_trade_names() {
         (
             "mounting hole M3",
             F::MountingHole {
-                drill: 3.4,
+                hole: 3.4,
                 pad: None,
             },
         ),
         (
             "mounting hole 3.2 pad 6",
             F::MountingHole {
-                drill: 3.2,
+                hole: 3.2,
                 pad: Some(6.0),
             },
         ),

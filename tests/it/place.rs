@@ -35,10 +35,11 @@ fn custom(pads: &[(&str, f64, f64)], court: Option<(f64, f64)>) -> FootprintSpec
             .iter()
             .map(|&(n, x, y)| PadSpec {
                 number: n.to_string(),
-                at: Point::new(x, y),
-                size: (0.3, 0.3),
-                shape: PadShape::Rect,
-                drill: None,
+                centre: Point::new(x, y),
+                width: 0.3,
+                height: 0.3,
+                shape: PadShape::Rectangle,
+                hole: None,
             })
             .collect(),
         courtyard: court.map(|(w, h)| Rect::centered(Point::new(0.0, 0.0), w, h)),
@@ -228,7 +229,7 @@ fn mixed_board(seed: u64) -> Board {
         FootprintSpec::Header { rows: 1, cols: 6 },
         FootprintSpec::TerminalBlock(2),
         FootprintSpec::MountingHole {
-            drill: 3.2,
+            hole: 3.2,
             pad: None,
         },
         custom(
@@ -518,10 +519,11 @@ fn small_board(parts: &[SmallPart], nets: &[Vec<usize>], concave: bool) -> Board
                     all_pins.push(format!("P{i}.{}", k + 1));
                     PadSpec {
                         number: (k + 1).to_string(),
-                        at: Point::new(f64::from(x) * 0.5, f64::from(y) * 0.5),
-                        size: (0.4, 0.4),
-                        shape: PadShape::Rect,
-                        drill: sp.hole.then_some(0.2),
+                        centre: Point::new(f64::from(x) * 0.5, f64::from(y) * 0.5),
+                        width: 0.4,
+                        height: 0.4,
+                        shape: PadShape::Rectangle,
+                        hole: sp.hole.then_some(0.2),
                     }
                 })
                 .collect();

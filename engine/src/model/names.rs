@@ -352,21 +352,24 @@ fn header(rest: &[String]) -> Result<FootprintSpec, String> {
     Ok(FootprintSpec::Header { rows, cols: across })
 }
 
-/// `mounting hole DRILL [pad DIAMETER]` or `mounting hole M3` (unplated, screw clearance).
+/// `mounting hole HOLE [pad DIAMETER]` or `mounting hole M3` (unplated, screw clearance).
 fn hole(rest: &[String]) -> Result<FootprintSpec, String> {
-    let w = rest.first().ok_or("hole drill is missing")?;
+    let w = rest.first().ok_or("hole diameter is missing")?;
     if let Some(&(_, drill)) = SCREW_HOLES.iter().find(|s| s.0 == w) {
         no_more(&rest[1..])?;
-        return Ok(FootprintSpec::MountingHole { drill, pad: None });
+        return Ok(FootprintSpec::MountingHole {
+            hole: drill,
+            pad: None,
+        });
     }
-    let drill = number(Some(w), "hole drill")?;
+    let drill = number(Some(w), "hole diameter")?;
     let pad = match rest.get(1).map(String::as_str) {
         None => None,
         Some("pad") => Some(number(rest.get(2), "hole pad diameter")?),
         Some(o) => return Err(format!("unexpected \"{o}\" (only \"pad D\" may follow)")),
     };
     no_more(&rest[if pad.is_some() { 3 } else { 1 }.min(rest.len())..])?;
-    Ok(FootprintSpec::MountingHole { drill, pad })
+    Ok(FootprintSpec::MountingHole { hole: drill, pad })
 }
 
 #[cfg(test)]

@@ -56,7 +56,7 @@ pub(crate) fn build_package(spec: &FootprintSpec) -> Result<Footprint, Footprint
             length,
             diameter,
         } => axial(*pitch, *length, *diameter),
-        FootprintSpec::MountingHole { drill, pad } => mounting_hole(*drill, *pad),
+        FootprintSpec::MountingHole { hole, pad } => mounting_hole(*hole, *pad),
         FootprintSpec::Custom { .. } => Err(FootprintError::BadCustom(
             "custom footprints are built from their pad list".into(),
         )),
@@ -346,7 +346,7 @@ fn qfn(
             at: Point::new(0.0, 0.0),
             width: t,
             height: t,
-            shape: PadShape::Rect,
+            shape: PadShape::Rectangle,
             kind: PadKind::Smd,
         });
     }
@@ -476,7 +476,7 @@ fn to220() -> Result<Footprint, FootprintError> {
     let pads = (0..3)
         .map(|i| {
             let at = Point::new((i as f64 - 1.0) * 2.54, 0.0);
-            tht(i + 1, at, 1.8, 2.6, PadShape::Oval, 1.2)
+            tht(i + 1, at, 1.8, 2.6, PadShape::Obround, 1.2)
         })
         .collect();
     finish("TO-220".into(), pads, Rect::new(-5.0, -2.0, 5.0, 2.5), "")
@@ -555,7 +555,7 @@ fn two_leads(
 /// "1", which a net (ground, usually) may use. Without, it is an unplated hole: a pad with
 /// an empty number, which no net can name.
 fn mounting_hole(drill: f64, pad: Option<f64>) -> Result<Footprint, FootprintError> {
-    check_dim("mounting hole drill", drill, 0.3, 12.0)?;
+    check_dim("mounting hole diameter", drill, 0.3, 12.0)?;
     let (number, size, plated, name) = match pad {
         Some(p) => {
             check_dim("mounting hole pad", p, drill + 2.0 * MIN_ANNULAR_RING, 30.0)?;
@@ -622,7 +622,7 @@ fn smd(number: usize, at: Point, width: f64, height: f64) -> Pad {
         at,
         width,
         height,
-        shape: PadShape::RoundRect,
+        shape: PadShape::Rounded,
         kind: PadKind::Smd,
     }
 }
@@ -635,7 +635,11 @@ fn tht(number: usize, at: Point, width: f64, height: f64, shape: PadShape, drill
         at,
         width,
         height,
-        shape: if number == 1 { PadShape::Rect } else { shape },
+        shape: if number == 1 {
+            PadShape::Rectangle
+        } else {
+            shape
+        },
         kind: PadKind::ThroughHole {
             drill,
             plated: true,
