@@ -421,6 +421,10 @@ fn dip(pins: u32, wide: bool) -> Result<Footprint, FootprintError> {
 /// two-row numbering (odd pins on one side, even on the other) is therefore
 /// `Header { rows: n, cols: 2 }`. Square 0.64 pins: drill 1.0, pads 1.7 (common practice).
 /// The body is one 2.54 square per pin.
+///
+/// The name is the trade's "rows x pins per row", the rows being the lines the numbering
+/// crosses (`cols` here): `Header { rows: 5, cols: 2 }` is "header 2x5", the form
+/// [`super::names`] reads. A single line is "header 1xN" whichever way it lies.
 fn header(rows: u32, cols: u32) -> Result<Footprint, FootprintError> {
     const PITCH: f64 = 2.54;
     let pins = rows.saturating_mul(cols);
@@ -442,7 +446,12 @@ fn header(rows: u32, cols: u32) -> Result<Footprint, FootprintError> {
         }
     }
     let body = origin_rect(cols as f64 * PITCH, rows as f64 * PITCH);
-    finish(format!("{rows}x{cols} header"), pads, body, "")
+    let name = if rows == 1 || cols == 1 {
+        format!("header 1x{pins}")
+    } else {
+        format!("header {cols}x{rows}")
+    };
+    finish(name, pads, body, "")
 }
 
 /// Screw terminal block, 5.08 pitch (common practice), ways numbered left to right. Drill
@@ -465,7 +474,7 @@ fn terminal_block(ways: u32) -> Result<Footprint, FootprintError> {
         })
         .collect();
     let body = origin_rect(ways as f64 * PITCH, 8.0);
-    finish(format!("{ways}-way terminal block"), pads, body, "")
+    finish(format!("terminal block {ways}"), pads, body, "")
 }
 
 /// TO-220 standing upright, leads 2.54 apart (JEDEC TO-220AB, from memory), numbered 1 to
