@@ -24,10 +24,11 @@ pub fn custom_footprint(pads: &[(&str, f64, f64)], court: Option<(f64, f64)>) ->
             .iter()
             .map(|&(n, x, y)| PadSpec {
                 number: n.to_string(),
-                at: Point::new(x, y),
-                size: (0.3, 0.3),
-                shape: PadShape::Rect,
-                drill: None,
+                centre: Point::new(x, y),
+                width: 0.3,
+                height: 0.3,
+                shape: PadShape::Rectangle,
+                hole: None,
             })
             .collect(),
         courtyard: court.map(|(w, h)| Rect::centered(Point::new(0.0, 0.0), w, h)),
@@ -126,10 +127,11 @@ pub fn chip(reference: &str, size: &str, at: Point, rotation: f64) -> Part {
 pub fn smd(number: &str, at: Point, w: f64, h: f64, shape: PadShape) -> PadSpec {
     PadSpec {
         number: number.into(),
-        at,
-        size: (w, h),
+        centre: at,
+        width: w,
+        height: h,
         shape,
-        drill: None,
+        hole: None,
     }
 }
 
@@ -137,10 +139,11 @@ pub fn smd(number: &str, at: Point, w: f64, h: f64, shape: PadShape) -> PadSpec 
 pub fn tht(number: &str, at: Point, d: f64, drill: f64) -> PadSpec {
     PadSpec {
         number: number.into(),
-        at,
-        size: (d, d),
+        centre: at,
+        width: d,
+        height: d,
         shape: PadShape::Circle,
-        drill: Some(drill),
+        hole: Some(drill),
     }
 }
 
@@ -163,7 +166,7 @@ pub fn soic8(reference: &str, at: Point) -> Part {
             p(x, -2.7),
             0.6,
             1.5,
-            PadShape::RoundRect,
+            PadShape::Rounded,
         ));
     }
     for i in 0..4 {
@@ -173,7 +176,7 @@ pub fn soic8(reference: &str, at: Point) -> Part {
             p(x, 2.7),
             0.6,
             1.5,
-            PadShape::RoundRect,
+            PadShape::Rounded,
         ));
     }
     custom(reference, pads, at)

@@ -11,6 +11,7 @@ use std::f64::consts::TAU;
 
 use approx::assert_abs_diff_eq;
 use lehr_engine::model::footprint::{COURTYARD_EXCESS, FootprintError, PadSpec};
+use lehr_engine::model::names::parse_footprint_name;
 use lehr_engine::model::{Footprint, FootprintSpec, Pad, PadKind, PadShape, Point, Rect};
 use proptest::prelude::*;
 
@@ -67,7 +68,7 @@ fn axial(pitch: f64, length: f64, diameter: f64) -> FootprintSpec {
 }
 
 fn hole(drill: f64, pad: Option<f64>) -> FootprintSpec {
-    FootprintSpec::MountingHole { drill, pad }
+    FootprintSpec::MountingHole { hole: drill, pad }
 }
 
 /// Every variant with typical parameters, and the number of pads each should have.
@@ -133,10 +134,11 @@ fn typical() -> Vec<(FootprintSpec, usize)> {
         FootprintSpec::Custom {
             pads: vec![PadSpec {
                 number: "1".into(),
-                at: Point::new(0.0, 0.0),
-                size: (1.0, 1.0),
+                centre: Point::new(0.0, 0.0),
+                width: 1.0,
+                height: 1.0,
                 shape: PadShape::Circle,
-                drill: Some(0.5),
+                hole: Some(0.5),
             }],
             courtyard: None,
         },
@@ -301,10 +303,10 @@ fn surface_mount_and_through_hole_kinds() {
             let hole = matches!(spec, FootprintSpec::MountingHole { .. });
             for p in &fp.pads {
                 if p.number == "1" && !hole {
-                    assert_eq!(p.shape, PadShape::Rect, "{}", fp.name);
+                    assert_eq!(p.shape, PadShape::Rectangle, "{}", fp.name);
                 } else {
                     assert!(
-                        matches!(p.shape, PadShape::Circle | PadShape::Oval),
+                        matches!(p.shape, PadShape::Circle | PadShape::Obround),
                         "{}: pad {}",
                         fp.name,
                         p.number
@@ -329,13 +331,48 @@ fn names_are_plain() {
         (qfp(48, 7.0, 0.5), "QFP-48"),
         (dip(8, false), "DIP-8"),
         (dip(40, true), "DIP-40 wide"),
-        (header(1, 4), "1x4 header"),
-        (header(2, 5), "2x5 header"),
-        (FootprintSpec::TerminalBlock(3), "3-way terminal block"),
+        // Headers by the trade's "rows x pins per row"; a single line is 1xN either way.
+        (header(1, 4), "header 1x4"),
+        (header(4, 1), "header 1x4"),
+        (header(5, 2), "header 2x5"),
+        (header(2, 5), "header 5x2"),
+        (FootprintSpec::TerminalBlock(3), "terminal block 3"),
         (FootprintSpec::To220, "TO-220"),
     ];
     for (spec, name) in cases {
         assert_eq!(build(&spec).name, name);
+    }
+}
+
+/// Header and terminal block names are the import's own form: each reads back to the same
+/// footprint (a single-row header to the same line of pins, standing upright).
+#[test]
+fn header_and_terminal_names_read_back() {
+    let mut specs = vec![
+        FootprintSpec::TerminalBlock(1),
+        FootprintSpec::TerminalBlock(5),
+    ];
+    for (r, c) in [
+        (1, 1),
+        (1, 3),
+        (3, 1),
+        (1, 8),
+        (2, 2),
+        (3, 2),
+        (5, 2),
+        (2, 5),
+        (4, 3),
+    ] {
+        specs.push(header(r, c));
+    }
+    for spec in specs {
+        let name = build(&spec).name;
+        let back = parse_footprint_name(&name).unwrap_or_else(|e| panic!("{name}: {e}"));
+        let want = match spec {
+            FootprintSpec::Header { rows: 1, cols } => header(cols, 1),
+            ref other => other.clone(),
+        };
+        assert_eq!(back, want, "{name}");
     }
 }
 

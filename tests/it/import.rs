@@ -220,7 +220,7 @@ fn connection_list_with_parts_table() {
         (FootprintSpec::Chip("0603".into()), "10k, 1%".into())
     );
     assert_eq!(p["U1"], (FootprintSpec::Soic(8), "timer \"B\"".into()));
-    // `header 1x2`: one pin across, two rows.
+    // `header 1x2`: one row of two pins, standing upright in the board file.
     assert_eq!(p["J1"].0, FootprintSpec::Header { rows: 2, cols: 1 });
     // Unplaced, one default class, and the board passes every check.
     assert!(b.parts.iter().all(|p| p.at.is_none()));
@@ -757,14 +757,14 @@ fn footprint_trade_names() {
         (
             "mounting hole M3",
             F::MountingHole {
-                drill: 3.4,
+                hole: 3.4,
                 pad: None,
             },
         ),
         (
             "mounting hole 3.2 pad 6",
             F::MountingHole {
-                drill: 3.2,
+                hole: 3.2,
                 pad: Some(6.0),
             },
         ),

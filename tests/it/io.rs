@@ -259,7 +259,7 @@ fn other_checks_are_located() {
     check_error(
         &board_text(
             RECT,
-            "    parts: [(reference: \"TP1\", §footprint: Custom(pads: [\n        (number: \"1\", at: (0, 0), size: (1, 1)),\n        (number: \"1\", at: (2, 0), size: (1, 1)),\n    ]))],",
+            "    parts: [(reference: \"TP1\", §footprint: Custom(pads: [\n        (number: \"1\", centre: (0, 0), width: 1, height: 1),\n        (number: \"1\", centre: (2, 0), width: 1, height: 1),\n    ]))],",
         ),
         "TP1: custom footprint: pad number \"1\" appears twice",
     );
@@ -373,10 +373,11 @@ fn doc_example_buildable() -> Board {
             .enumerate()
             .map(|(k, number)| PadSpec {
                 number,
-                at: Point::new(2.0 * k as f64, 0.0),
-                size: (1.0, 1.0),
-                shape: PadShape::Rect,
-                drill: None,
+                centre: Point::new(2.0 * k as f64, 0.0),
+                width: 1.0,
+                height: 1.0,
+                shape: PadShape::Rectangle,
+                hole: None,
             })
             .collect();
         let courtyard = pads.is_empty().then_some(Rect::new(-2.0, -2.0, 2.0, 2.0));
@@ -751,19 +752,20 @@ fn footprint() -> impl Strategy<Value = FootprintSpec> {
         point(),
         (finite(), finite()),
         prop_oneof![
-            Just(PadShape::Rect),
-            Just(PadShape::RoundRect),
+            Just(PadShape::Rectangle),
+            Just(PadShape::Rounded),
             Just(PadShape::Circle),
-            Just(PadShape::Oval),
+            Just(PadShape::Obround),
         ],
         prop::option::of(finite()),
     )
-        .prop_map(|(number, at, size, shape, drill)| PadSpec {
+        .prop_map(|(number, centre, (width, height), shape, hole)| PadSpec {
             number,
-            at,
-            size,
+            centre,
+            width,
+            height,
             shape,
-            drill,
+            hole,
         });
     prop_oneof![
         text().prop_map(FootprintSpec::Chip),
@@ -798,7 +800,7 @@ fn footprint() -> impl Strategy<Value = FootprintSpec> {
             }
         }),
         (finite(), prop::option::of(finite()))
-            .prop_map(|(drill, pad)| FootprintSpec::MountingHole { drill, pad }),
+            .prop_map(|(hole, pad)| FootprintSpec::MountingHole { hole, pad }),
         (prop::collection::vec(pad, 0..3), prop::option::of(rect()))
             .prop_map(|(pads, courtyard)| FootprintSpec::Custom { pads, courtyard }),
     ]

@@ -304,16 +304,16 @@ fn sampler_design() -> Design {
         rules: (clearance: 0.2, placement_grid: 1.0),
         parts: [
             (reference: "A", at: (0.0, 0.0), footprint: Custom(pads: [
-                (number: "1", at: (0.2, 0.1), size: (0.1, 0.1), shape: Rect),
-                (number: "2", at: (-0.2, 0.0), size: (0.1, 0.1), shape: Rect),
+                (number: "1", centre: (0.2, 0.1), width: 0.1, height: 0.1, shape: Rectangle),
+                (number: "2", centre: (-0.2, 0.0), width: 0.1, height: 0.1, shape: Rectangle),
             ], courtyard: (min: (-0.3, -0.3), max: (0.3, 0.3)))),
             (reference: "B", at: (1.0, 0.0), footprint: Custom(pads: [
-                (number: "1", at: (0.0, 0.0), size: (0.1, 0.1), shape: Rect),
-                (number: "2", at: (0.0, 0.0), size: (0.1, 0.1), shape: Rect),
+                (number: "1", centre: (0.0, 0.0), width: 0.1, height: 0.1, shape: Rectangle),
+                (number: "2", centre: (0.0, 0.0), width: 0.1, height: 0.1, shape: Rectangle),
             ], courtyard: (min: (-0.3, -0.3), max: (0.3, 0.3)))),
             (reference: "C", at: (0.0, 1.0), footprint: Custom(pads: [
-                (number: "1", at: (0.0, 0.0), size: (0.1, 0.1), shape: Rect),
-                (number: "2", at: (0.0, 0.0), size: (0.1, 0.1), shape: Rect),
+                (number: "1", centre: (0.0, 0.0), width: 0.1, height: 0.1, shape: Rectangle),
+                (number: "2", centre: (0.0, 0.0), width: 0.1, height: 0.1, shape: Rectangle),
             ], courtyard: (min: (-0.3, -0.3), max: (0.3, 0.3)))),
         ],
         nets: [

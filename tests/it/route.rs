@@ -377,7 +377,7 @@ fn a_class_too_wide_for_a_fine_pitch_part_is_explained() {
                 p(0.65 * i as f64, 0.0),
                 0.35,
                 1.2,
-                lehr_engine::model::PadShape::Rect,
+                lehr_engine::model::PadShape::Rectangle,
             )
         })
         .collect();

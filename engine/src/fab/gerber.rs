@@ -196,16 +196,16 @@ fn pad_template(p: &BoardPad, grow: f64) -> Result<Template, FabError> {
         PadShape::Circle => Template::Circle {
             d: nm(&what, w.min(h))?,
         },
-        PadShape::Rect => Template::Rect {
+        PadShape::Rectangle => Template::Rect {
             w: nm(&what, w)?,
             h: nm(&what, h)?,
         },
-        PadShape::Oval if (w - h).abs() < 1e-9 => Template::Circle { d: nm(&what, w)? },
-        PadShape::Oval => Template::Obround {
+        PadShape::Obround if (w - h).abs() < 1e-9 => Template::Circle { d: nm(&what, w)? },
+        PadShape::Obround => Template::Obround {
             w: nm(&what, w)?,
             h: nm(&what, h)?,
         },
-        PadShape::RoundRect => Template::Rounded {
+        PadShape::Rounded => Template::Rounded {
             w: nm(&what, w)?,
             h: nm(&what, h)?,
             r: nm(&what, p.corner_radius() + grow)?,

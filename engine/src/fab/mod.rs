@@ -134,7 +134,7 @@ impl BoardPad {
         }
     }
 
-    /// Corner radius of a [`PadShape::RoundRect`] pad: 25 % of the smaller side (the
+    /// Corner radius of a [`PadShape::Rounded`] pad: 25 % of the smaller side (the
     /// footprint module's definition).
     pub fn corner_radius(&self) -> f64 {
         0.25 * self.width.min(self.height)

@@ -67,11 +67,11 @@ pub enum FootprintSpec {
         length: f64,
         diameter: f64,
     },
-    /// Mounting hole of `drill` diameter; `pad` gives a plated ring of that diameter
-    /// (one pad "1"), otherwise the hole is unplated and has no pins (its one pad has an
-    /// empty number, which no net can name).
+    /// Mounting hole of `hole` (finished) diameter; `pad` gives a plated ring of that
+    /// diameter (one pad "1"), otherwise the hole is unplated and has no pins (its one pad
+    /// has an empty number, which no net can name).
     MountingHole {
-        drill: f64,
+        hole: f64,
         #[serde(default)]
         pad: Option<f64>,
     },
@@ -88,26 +88,30 @@ pub enum FootprintSpec {
 #[serde(deny_unknown_fields)]
 pub struct PadSpec {
     pub number: String,
-    pub at: Point,
-    /// Width and height in mm.
-    pub size: (f64, f64),
+    /// The pad centre, relative to the footprint origin.
+    pub centre: Point,
+    /// Copper width (along x) in mm.
+    pub width: f64,
+    /// Copper height (along y) in mm.
+    pub height: f64,
     #[serde(default)]
     pub shape: PadShape,
-    /// Drill diameter for a through-hole pad; `None` for SMD.
+    /// Finished hole diameter of a through-hole pad; `None` for SMD.
     #[serde(default)]
-    pub drill: Option<f64>,
+    pub hole: Option<f64>,
 }
 
-/// Copper shape of a pad.
+/// Copper shape of a pad, named after the Gerber standard apertures (rectangle, circle,
+/// obround) plus the rounded rectangle.
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Serialize, Deserialize)]
 pub enum PadShape {
     #[default]
-    Rect,
+    Rectangle,
     /// Rectangle with corners rounded to 25 % of the smaller side.
-    RoundRect,
+    Rounded,
     Circle,
-    /// Stadium: a rectangle with fully rounded short ends.
-    Oval,
+    /// Obround (stadium): a rectangle with fully rounded short ends.
+    Obround,
 }
 
 /// Surface-mount or through-hole.
@@ -216,17 +220,17 @@ fn build_custom(specs: &[PadSpec], courtyard: Option<Rect>) -> Result<Footprint,
     }
     let mut pads = Vec::with_capacity(specs.len());
     for s in specs {
-        check_dim("pad position x", s.at.x, -500.0, 500.0)?;
-        check_dim("pad position y", s.at.y, -500.0, 500.0)?;
-        check_dim("pad width", s.size.0, 0.01, 100.0)?;
-        check_dim("pad height", s.size.1, 0.01, 100.0)?;
-        let kind = match s.drill {
+        check_dim("pad centre x", s.centre.x, -500.0, 500.0)?;
+        check_dim("pad centre y", s.centre.y, -500.0, 500.0)?;
+        check_dim("pad width", s.width, 0.01, 100.0)?;
+        check_dim("pad height", s.height, 0.01, 100.0)?;
+        let kind = match s.hole {
             None => PadKind::Smd,
             Some(d) => {
-                check_dim("pad drill", d, 0.05, 50.0)?;
-                if d >= s.size.0.min(s.size.1) {
+                check_dim("pad hole", d, 0.05, 50.0)?;
+                if d >= s.width.min(s.height) {
                     return Err(FootprintError::BadCustom(format!(
-                        "pad {} drill {} mm is not smaller than the pad",
+                        "pad {} hole {} mm is not smaller than the pad",
                         s.number, d
                     )));
                 }
@@ -244,9 +248,9 @@ fn build_custom(specs: &[PadSpec], courtyard: Option<Rect>) -> Result<Footprint,
         }
         pads.push(Pad {
             number: s.number.clone(),
-            at: s.at,
-            width: s.size.0,
-            height: s.size.1,
+            at: s.centre,
+            width: s.width,
+            height: s.height,
             shape: s.shape,
             kind,
         });

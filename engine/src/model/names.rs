@@ -19,8 +19,8 @@ use super::footprint::{FootprintError, FootprintSpec};
 pub const ACCEPTED_FORMS: &str = "\
 0402, 0603, 0805, 1206, 1210, 2512 (chip sizes); SOD-123; SOT-23, SOT-23-5, SOT-23-6; \
 SOIC-N; TSSOP-N; QFN-N [BxB] [PITCH] [EP SIDE]; QFP-N (also LQFP-N, TQFP-N) [BxB] [PITCH]; \
-DIP-N [wide]; header N or header AxB (A pins across, B rows); terminal block N; TO-220; \
-radial PITCH DIAMETER; axial PITCH LENGTH DIAMETER; mounting hole DRILL [pad DIAMETER] \
+DIP-N [wide]; header AxB (A rows of B pins) or header N (one row); terminal block N; TO-220; \
+radial PITCH DIAMETER; axial PITCH LENGTH DIAMETER; mounting hole HOLE [pad DIAMETER] \
 or mounting hole M2/M2.5/M3/M4/M5/M6; or the board file's RON form, e.g. Soic(8)";
 
 /// Why a footprint name was not accepted.
@@ -335,38 +335,42 @@ fn quad(rest: &[String], qfn: bool) -> Result<FootprintSpec, String> {
     })
 }
 
-/// `header N` (one row) or `header AxB`: B rows of A pins, numbered across each row of A
-/// first, so `header 2x5` is the usual two-row header with odd pins on one side.
+/// `header N` (one row) or `header AxB`: A rows of B pins as the trade reads it, numbered
+/// across the rows, so `header 2x5` is the usual two-row header with odd pins in one row.
+/// The board file's `Header` rows run the other way: `header 2x5` is `rows: 5, cols: 2`.
 fn header(rest: &[String]) -> Result<FootprintSpec, String> {
     let w = rest
         .first()
         .ok_or("header size is missing (e.g. header 2x5)")?;
     no_more(&rest[1..])?;
-    let (across, rows) = match w.split_once('x') {
+    let (cols, rows) = match w.split_once('x') {
         Some((a, b)) => (
-            count(Some(&a.to_string()), "header pins across")?,
-            count(Some(&b.to_string()), "header rows")?,
+            count(Some(&a.to_string()), "header rows")?,
+            count(Some(&b.to_string()), "header pins per row")?,
         ),
         None => (1, count(Some(w), "header pin count")?),
     };
-    Ok(FootprintSpec::Header { rows, cols: across })
+    Ok(FootprintSpec::Header { rows, cols })
 }
 
-/// `mounting hole DRILL [pad DIAMETER]` or `mounting hole M3` (unplated, screw clearance).
+/// `mounting hole HOLE [pad DIAMETER]` or `mounting hole M3` (unplated, screw clearance).
 fn hole(rest: &[String]) -> Result<FootprintSpec, String> {
-    let w = rest.first().ok_or("hole drill is missing")?;
+    let w = rest.first().ok_or("hole diameter is missing")?;
     if let Some(&(_, drill)) = SCREW_HOLES.iter().find(|s| s.0 == w) {
         no_more(&rest[1..])?;
-        return Ok(FootprintSpec::MountingHole { drill, pad: None });
+        return Ok(FootprintSpec::MountingHole {
+            hole: drill,
+            pad: None,
+        });
     }
-    let drill = number(Some(w), "hole drill")?;
+    let drill = number(Some(w), "hole diameter")?;
     let pad = match rest.get(1).map(String::as_str) {
         None => None,
         Some("pad") => Some(number(rest.get(2), "hole pad diameter")?),
         Some(o) => return Err(format!("unexpected \"{o}\" (only \"pad D\" may follow)")),
     };
     no_more(&rest[if pad.is_some() { 3 } else { 1 }.min(rest.len())..])?;
-    Ok(FootprintSpec::MountingHole { drill, pad })
+    Ok(FootprintSpec::MountingHole { hole: drill, pad })
 }
 
 #[cfg(test)]

@@ -56,7 +56,7 @@ pub(crate) fn build_package(spec: &FootprintSpec) -> Result<Footprint, Footprint
             length,
             diameter,
         } => axial(*pitch, *length, *diameter),
-        FootprintSpec::MountingHole { drill, pad } => mounting_hole(*drill, *pad),
+        FootprintSpec::MountingHole { hole, pad } => mounting_hole(*hole, *pad),
         FootprintSpec::Custom { .. } => Err(FootprintError::BadCustom(
             "custom footprints are built from their pad list".into(),
         )),
@@ -346,7 +346,7 @@ fn qfn(
             at: Point::new(0.0, 0.0),
             width: t,
             height: t,
-            shape: PadShape::Rect,
+            shape: PadShape::Rectangle,
             kind: PadKind::Smd,
         });
     }
@@ -421,6 +421,10 @@ fn dip(pins: u32, wide: bool) -> Result<Footprint, FootprintError> {
 /// two-row numbering (odd pins on one side, even on the other) is therefore
 /// `Header { rows: n, cols: 2 }`. Square 0.64 pins: drill 1.0, pads 1.7 (common practice).
 /// The body is one 2.54 square per pin.
+///
+/// The name is the trade's "rows x pins per row", the rows being the lines the numbering
+/// crosses (`cols` here): `Header { rows: 5, cols: 2 }` is "header 2x5", the form
+/// [`super::names`] reads. A single line is "header 1xN" whichever way it lies.
 fn header(rows: u32, cols: u32) -> Result<Footprint, FootprintError> {
     const PITCH: f64 = 2.54;
     let pins = rows.saturating_mul(cols);
@@ -442,7 +446,12 @@ fn header(rows: u32, cols: u32) -> Result<Footprint, FootprintError> {
         }
     }
     let body = origin_rect(cols as f64 * PITCH, rows as f64 * PITCH);
-    finish(format!("{rows}x{cols} header"), pads, body, "")
+    let name = if rows == 1 || cols == 1 {
+        format!("header 1x{pins}")
+    } else {
+        format!("header {cols}x{rows}")
+    };
+    finish(name, pads, body, "")
 }
 
 /// Screw terminal block, 5.08 pitch (common practice), ways numbered left to right. Drill
@@ -465,7 +474,7 @@ fn terminal_block(ways: u32) -> Result<Footprint, FootprintError> {
         })
         .collect();
     let body = origin_rect(ways as f64 * PITCH, 8.0);
-    finish(format!("{ways}-way terminal block"), pads, body, "")
+    finish(format!("terminal block {ways}"), pads, body, "")
 }
 
 /// TO-220 standing upright, leads 2.54 apart (JEDEC TO-220AB, from memory), numbered 1 to
@@ -476,7 +485,7 @@ fn to220() -> Result<Footprint, FootprintError> {
     let pads = (0..3)
         .map(|i| {
             let at = Point::new((i as f64 - 1.0) * 2.54, 0.0);
-            tht(i + 1, at, 1.8, 2.6, PadShape::Oval, 1.2)
+            tht(i + 1, at, 1.8, 2.6, PadShape::Obround, 1.2)
         })
         .collect();
     finish("TO-220".into(), pads, Rect::new(-5.0, -2.0, 5.0, 2.5), "")
@@ -555,7 +564,7 @@ fn two_leads(
 /// "1", which a net (ground, usually) may use. Without, it is an unplated hole: a pad with
 /// an empty number, which no net can name.
 fn mounting_hole(drill: f64, pad: Option<f64>) -> Result<Footprint, FootprintError> {
-    check_dim("mounting hole drill", drill, 0.3, 12.0)?;
+    check_dim("mounting hole diameter", drill, 0.3, 12.0)?;
     let (number, size, plated, name) = match pad {
         Some(p) => {
             check_dim("mounting hole pad", p, drill + 2.0 * MIN_ANNULAR_RING, 30.0)?;
@@ -622,7 +631,7 @@ fn smd(number: usize, at: Point, width: f64, height: f64) -> Pad {
         at,
         width,
         height,
-        shape: PadShape::RoundRect,
+        shape: PadShape::Rounded,
         kind: PadKind::Smd,
     }
 }
@@ -635,7 +644,11 @@ fn tht(number: usize, at: Point, width: f64, height: f64, shape: PadShape, drill
         at,
         width,
         height,
-        shape: if number == 1 { PadShape::Rect } else { shape },
+        shape: if number == 1 {
+            PadShape::Rectangle
+        } else {
+            shape
+        },
         kind: PadKind::ThroughHole {
             drill,
             plated: true,

@@ -15,10 +15,11 @@ fn centre_pin_footprint(p: f64, pins: u32) -> FootprintSpec {
         pads: (1..=pins.max(1))
             .map(|k| PadSpec {
                 number: k.to_string(),
-                at: Point::new(0.0, 0.0),
-                size: (s, s),
-                shape: PadShape::Rect,
-                drill: None,
+                centre: Point::new(0.0, 0.0),
+                width: s,
+                height: s,
+                shape: PadShape::Rectangle,
+                hole: None,
             })
             .collect(),
         courtyard: Some(Rect::centered(Point::new(0.0, 0.0), p, p)),
@@ -386,7 +387,7 @@ pub fn random_board(count: u32, seed: u64) -> Board {
         pads: (0..8)
             .map(|k| PadSpec {
                 number: (k + 1).to_string(),
-                at: Point::new(
+                centre: Point::new(
                     if k < 4 { -2.7 } else { 2.7 },
                     if k < 4 {
                         1.905 - 1.27 * k as f64
@@ -394,9 +395,10 @@ pub fn random_board(count: u32, seed: u64) -> Board {
                         -1.905 + 1.27 * (k - 4) as f64
                     },
                 ),
-                size: (1.5, 0.6),
-                shape: PadShape::RoundRect,
-                drill: None,
+                width: 1.5,
+                height: 0.6,
+                shape: PadShape::Rounded,
+                hole: None,
             })
             .collect(),
         courtyard: None,

@@ -412,10 +412,11 @@ fn coarsen(d: &Design, rng: &mut Rng, axis_x: bool, scatter: bool) -> Option<Lev
             .enumerate()
             .map(|(k, &(_, s, c))| PadSpec {
                 number: (k + 1).to_string(),
-                at: Point::new(s.x / f64::from(c), s.y / f64::from(c)),
-                size: (0.1, 0.1),
-                shape: PadShape::Rect,
-                drill: None,
+                centre: Point::new(s.x / f64::from(c), s.y / f64::from(c)),
+                width: 0.1,
+                height: 0.1,
+                shape: PadShape::Rectangle,
+                hole: None,
             })
             .collect();
         if class[g[0]] == 3 {
@@ -423,10 +424,11 @@ fn coarsen(d: &Design, rng: &mut Rng, axis_x: bool, scatter: bool) -> Option<Lev
             // through-hole members do.
             pads.push(PadSpec {
                 number: "0".into(),
-                at: court.center(),
-                size: (0.2, 0.2),
+                centre: court.center(),
+                width: 0.2,
+                height: 0.2,
                 shape: PadShape::Circle,
-                drill: Some(0.1),
+                hole: Some(0.1),
             });
         }
         let placed = g.iter().all(|&m| parts[m].at.is_some()) && !scatter;

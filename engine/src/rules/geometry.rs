@@ -306,11 +306,11 @@ impl Layers {
 /// to a quarter of the smaller side; an oval rounds its short ends fully.
 pub fn pad_prim(c: Point, w: f64, h: f64, shape: PadShape) -> Prim {
     match shape {
-        PadShape::Rect => Prim::Box {
+        PadShape::Rectangle => Prim::Box {
             core: Rect::centered(c, w, h),
             r: 0.0,
         },
-        PadShape::RoundRect => {
+        PadShape::Rounded => {
             let r = 0.25 * w.min(h);
             Prim::Box {
                 core: Rect::centered(c, w - 2.0 * r, h - 2.0 * r),
@@ -318,7 +318,7 @@ pub fn pad_prim(c: Point, w: f64, h: f64, shape: PadShape) -> Prim {
             }
         }
         PadShape::Circle => Prim::disc(c, w.max(h) / 2.0),
-        PadShape::Oval => {
+        PadShape::Obround => {
             let r = w.min(h) / 2.0;
             Prim::Box {
                 core: Rect::centered(c, w - 2.0 * r, h - 2.0 * r),
@@ -484,7 +484,7 @@ mod tests {
         let t3 = Prim::track(Point::new(2.0, -1.0), Point::new(2.0, 1.0), 0.25);
         assert!(close(t1.gap(&t3).0, -0.25));
         // A 1 x 1 pad at (3, 3) and a via of radius 0.3 at (5, 3): core gap 1.5.
-        let pad = pad_prim(Point::new(3.0, 3.0), 1.0, 1.0, PadShape::Rect);
+        let pad = pad_prim(Point::new(3.0, 3.0), 1.0, 1.0, PadShape::Rectangle);
         let via = Prim::disc(Point::new(5.0, 3.0), 0.3);
         assert!(close(pad.gap(&via).0, 1.2));
         // Diagonal from a rectangle corner: (1,1) corner to a disc at (4,5), distance 5.
@@ -507,11 +507,11 @@ mod tests {
     fn pad_shapes() {
         let c = Point::new(0.0, 0.0);
         // An oval 2 x 1: a segment from -0.5 to 0.5 grown by 0.5.
-        let o = pad_prim(c, 2.0, 1.0, PadShape::Oval);
+        let o = pad_prim(c, 2.0, 1.0, PadShape::Obround);
         assert!(close(o.gap_to_point(Point::new(1.0, 0.0)), 0.0));
         assert!(o.gap_to_point(Point::new(0.95, 0.45)) > 0.0);
         // A rounded rectangle 2 x 1 has corner radius 0.25.
-        let rr = pad_prim(c, 2.0, 1.0, PadShape::RoundRect);
+        let rr = pad_prim(c, 2.0, 1.0, PadShape::Rounded);
         assert!(close(rr.gap_to_point(Point::new(1.0, 0.0)), 0.0));
         assert!(rr.gap_to_point(Point::new(1.0, 0.5)) > 0.0);
         let circle = pad_prim(c, 1.6, 1.6, PadShape::Circle);

@@ -71,7 +71,7 @@ fn copper_layers_read_back_as_the_board() {
                 "SmdPad(CopperDefined)"
             };
             assert!(fl.function.contains(f), "{key:?}: {}", fl.function);
-            if *shape == PadShape::RoundRect {
+            if *shape == PadShape::Rounded {
                 // Corners rounded to 25 % of the smaller side (src/model/footprint.rs).
                 let r = fl.corner.unwrap();
                 assert!(close(r, 0.25 * size.0.min(size.1)), "{key:?}: corner {r}");
@@ -225,7 +225,7 @@ fn mask_openings_are_the_pads_grown_by_the_expansion() {
                 fl.pin,
                 fl.size
             );
-            if *shape == PadShape::RoundRect {
+            if *shape == PadShape::Rounded {
                 // The outline grown by e keeps its corner centres: radius r + e.
                 let r = fl.corner.unwrap();
                 assert!(

@@ -326,9 +326,9 @@ fn expected_pads(d: &Design, layer: Layer) -> PadTable {
 fn kind_of(shape: PadShape, size: (f64, f64)) -> &'static str {
     match shape {
         PadShape::Circle => "circle",
-        PadShape::Rect => "rectangle",
-        PadShape::Oval if close(size.0, size.1) => "circle",
-        PadShape::Oval => "obround",
-        PadShape::RoundRect => "rounded",
+        PadShape::Rectangle => "rectangle",
+        PadShape::Obround if close(size.0, size.1) => "circle",
+        PadShape::Obround => "obround",
+        PadShape::Rounded => "rounded",
     }
 }

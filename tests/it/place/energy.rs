@@ -39,7 +39,7 @@ fn mixed_board(seed: u64) -> Board {
         FootprintSpec::Header { rows: 1, cols: 6 },
         FootprintSpec::TerminalBlock(2),
         FootprintSpec::MountingHole {
-            drill: 3.2,
+            hole: 3.2,
             pad: None,
         },
         custom_footprint(
@@ -329,10 +329,11 @@ fn small_board(parts: &[SmallPart], nets: &[Vec<usize>], concave: bool) -> Board
                     all_pins.push(format!("P{i}.{}", k + 1));
                     PadSpec {
                         number: (k + 1).to_string(),
-                        at: Point::new(f64::from(x) * 0.5, f64::from(y) * 0.5),
-                        size: (0.4, 0.4),
-                        shape: PadShape::Rect,
-                        drill: sp.hole.then_some(0.2),
+                        centre: Point::new(f64::from(x) * 0.5, f64::from(y) * 0.5),
+                        width: 0.4,
+                        height: 0.4,
+                        shape: PadShape::Rectangle,
+                        hole: sp.hole.then_some(0.2),
                     }
                 })
                 .collect();
