@@ -20,6 +20,7 @@
 
 use serde::{Deserialize, Serialize};
 
+use super::fast::{prefetch, round};
 use super::hash::SpatialHash;
 use crate::model::board::{Design, Layers, Shape, rect_to_board, to_board};
 use crate::model::{Point, Quarter, Rect, Side};
@@ -1243,7 +1244,7 @@ impl Layout {
         let start = out.len();
         self.hash.for_each_near(&r, |e| {
             let p = self.parts[e.id as usize].pos;
-            let (cx, cy) = (super::anneal::round(p.x / g), super::anneal::round(p.y / g));
+            let (cx, cy) = (round(p.x / g), round(p.y / g));
             if (x0..=x1).contains(&cx) && (y0..=y1).contains(&cy) {
                 out.push(e.id);
             }
@@ -1396,18 +1397,4 @@ impl Layout {
     pub fn outside_area(&self, part: u32) -> f64 {
         self.outside_of(&self.parts[part as usize].court_now())
     }
-}
-
-/// A non-binding hint to fetch the cache line holding `p` (a no-op off x86-64). Never
-/// faults, whatever `p` points at.
-#[inline(always)]
-pub(crate) fn prefetch<T>(p: *const T) {
-    #[cfg(target_arch = "x86_64")]
-    {
-        use std::arch::x86_64::{_MM_HINT_T0, _mm_prefetch};
-        // SAFETY: a prefetch reads nothing architecturally and cannot fault.
-        unsafe { _mm_prefetch::<_MM_HINT_T0>(p.cast::<i8>()) };
-    }
-    #[cfg(not(target_arch = "x86_64"))]
-    let _ = p;
 }

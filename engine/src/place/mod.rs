@@ -15,6 +15,7 @@
 pub mod anneal;
 pub mod baseline;
 pub mod generate;
+mod fast;
 mod hash;
 pub mod layout;
 pub mod legal;

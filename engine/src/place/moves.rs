@@ -20,7 +20,8 @@
 //! ([`super::layout::Layout::prefetch_row`]); the draws, and so the results, are the
 //! same on every machine.
 
-use super::anneal::{Annealer, round};
+use super::anneal::Annealer;
+use super::fast::round;
 use super::layout::PartMove;
 use crate::model::{Point, Quarter};
 
