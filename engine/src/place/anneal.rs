@@ -1,5 +1,5 @@
 //! The annealer: Metropolis acceptance and the stage loop that the cooling schedule
-//! drives over the move budget (the moves themselves are in [`super::moves`]).
+//! drives over the move budget (the moves themselves are in [`moves`]).
 //!
 //! One [`Annealer`] owns a [`Layout`] and a seeded [`Rng`]. The caller advances it in
 //! batches ([`Annealer::run_moves`], [`Annealer::run_stage`]) so that a worker thread can
@@ -8,10 +8,12 @@
 //! Nothing here reads a clock, and the same design, options and seed give the same
 //! placement bit for bit.
 
+mod moves;
+
 use serde::{Deserialize, Serialize};
 
+use self::moves::{Ahead, Proposal};
 use super::layout::{Layout, PartMove, Terms, Weights};
-use super::moves::{Ahead, Proposal};
 use super::options::{AnnealOptions, PlaceError, check_options, default_budget};
 use super::rng::Rng;
 use super::schedule::{Cooling, Leg, Schedule, StageStats};
@@ -71,7 +73,7 @@ pub struct Annealer {
     pub(super) movable: Vec<u32>,
     /// The parts of the next three moves, drawn ahead so that their data can be fetched
     /// into the cache while the moves before them run.
-    pub(super) ahead: [Ahead; 3],
+    ahead: [Ahead; 3],
     /// Grid cells (x0, x1, y0, y1) whose points lie on the board's box.
     pub(super) cells: (i64, i64, i64, i64),
     max_window: f64,

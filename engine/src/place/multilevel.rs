@@ -26,10 +26,10 @@
 use std::time::Instant;
 
 use super::anneal::{Annealer, StageReport};
-use super::options::{AnnealOptions, PlaceError};
+use super::options::{AnnealOptions, PlaceError, default_budget};
 use super::rng::Rng;
-use super::spectral::{self, Graph};
-use super::{Placed, finish};
+use super::spectral::{self, Graph, median_side};
+use super::outcome::{Placed, anneal_flat, finish};
 use crate::model::board::{Board, Copper, Net, Part, Side, rect_to_board, to_board};
 use crate::model::footprint::{FootprintSpec, PadShape, PadSpec};
 use crate::model::{Design, Point, Rect, resolve};
@@ -85,7 +85,7 @@ pub fn place(
         axis_x = !axis_x;
     }
     if levels.is_empty() {
-        return super::anneal_flat(design, opts, observe);
+        return anneal_flat(design, opts, observe);
     }
 
     // Share a move cap among the levels by their stage sizes (N^(4/3)).
@@ -96,7 +96,7 @@ pub fn place(
     let total: f64 = sizes.iter().sum();
     let budget = opts
         .max_moves
-        .unwrap_or_else(|| super::default_budget(movable_count(design), opts.effort));
+        .unwrap_or_else(|| default_budget(movable_count(design), opts.effort));
     let cap_for = |k: usize| Some(((budget as f64 * sizes[k] / total) as u64).max(100));
 
     let mut history: Vec<StageReport> = Vec::new();
@@ -190,23 +190,6 @@ fn movable_count(d: &Design) -> usize {
 
 fn snap(p: Point, grid: f64) -> Point {
     Point::new((p.x / grid).round() * grid, (p.y / grid).round() * grid)
-}
-
-/// Median of the shorter courtyard side over the movable parts.
-pub(super) fn median_side(d: &Design) -> f64 {
-    let mut sides: Vec<f64> = d
-        .board
-        .parts
-        .iter()
-        .zip(&d.footprints)
-        .filter(|(p, _)| !p.locked)
-        .map(|(_, f)| f.courtyard.width().min(f.courtyard.height()))
-        .collect();
-    if sides.is_empty() {
-        return d.board.rules.placement_grid;
-    }
-    sides.sort_by(f64::total_cmp);
-    sides[sides.len() / 2]
 }
 
 /// Offset of `b`'s origin from `a`'s when `b`'s courtyard abuts `a`'s on the right

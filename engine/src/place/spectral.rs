@@ -1049,7 +1049,7 @@ pub fn start_design(design: &Design) -> Design {
 pub fn refine_options(design: &Design, opts: &AnnealOptions) -> AnnealOptions {
     let window = opts
         .start_window
-        .unwrap_or(WINDOW_SIDES * super::multilevel::median_side(design));
+        .unwrap_or(WINDOW_SIDES * median_side(design));
     let mut o = AnnealOptions {
         scatter: false,
         multilevel: false,
@@ -1124,4 +1124,21 @@ pub fn balance_temperature(design: &Design, opts: &AnnealOptions) -> Option<f64>
         }
     }
     Some(lo)
+}
+
+/// Median of the shorter courtyard side over the movable parts.
+pub(super) fn median_side(d: &Design) -> f64 {
+    let mut sides: Vec<f64> = d
+        .board
+        .parts
+        .iter()
+        .zip(&d.footprints)
+        .filter(|(p, _)| !p.locked)
+        .map(|(_, f)| f.courtyard.width().min(f.courtyard.height()))
+        .collect();
+    if sides.is_empty() {
+        return d.board.rules.placement_grid;
+    }
+    sides.sort_by(f64::total_cmp);
+    sides[sides.len() / 2]
 }

@@ -17,12 +17,12 @@
 //!
 //! Each move's part is drawn three moves ahead and its displacement two ahead, so that
 //! on a large board the part's data can be fetched into the cache early
-//! ([`super::layout::Layout::prefetch_row`]); the draws, and so the results, are the
+//! ([`crate::place::layout::Layout::prefetch_row`]); the draws, and so the results, are the
 //! same on every machine.
 
-use super::anneal::Annealer;
-use super::fast::round;
-use super::layout::PartMove;
+use super::Annealer;
+use crate::place::fast::round;
+use crate::place::layout::PartMove;
 use crate::model::{Point, Quarter};
 
 /// [`Ahead::part`] before the first draw.
