@@ -14,7 +14,7 @@ use thiserror::Error;
 
 use super::Location;
 use crate::model::board::{Copper, Net, NetClass, Part, Rules};
-use crate::model::check::MAX_COORD_MM;
+use crate::model::validate::MAX_COORD_MM;
 use crate::model::names::NameError;
 use crate::model::{Board, Footprint, FootprintSpec, Point, Problem, Shape, Side, resolve};
 

@@ -26,7 +26,7 @@ use std::path::{Path, PathBuf};
 use ron::extensions::Extensions;
 use thiserror::Error;
 
-use crate::model::check::resolve;
+use crate::model::validate::resolve;
 use crate::model::{Board, Design, Problem};
 
 pub use formats::{Format, ImportFiles, import_file};

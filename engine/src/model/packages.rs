@@ -111,7 +111,7 @@ fn build_custom(specs: &[PadSpec], courtyard: Option<Rect>) -> Result<Footprint,
 }
 
 /// Checks that a dimension is finite and within a sane range.
-pub(crate) fn check_dim(
+fn check_dim(
     what: &'static str,
     value: f64,
     min: f64,

@@ -23,7 +23,7 @@ use super::{
 };
 use crate::model::board::{Copper, Track, Via};
 use crate::model::{Design, Layer, PartId, Point};
-use crate::rules::geometry::{Layers, Prim, dist, placed_pad};
+use crate::rules::geometry::{LayerSet, Prim, dist, placed_pad};
 
 /// A pin of a net to route.
 #[derive(Clone, Debug)]
@@ -32,7 +32,7 @@ struct Pin {
     centre: Point,
     /// The pad's copper.
     pad: Prim,
-    layers: Layers,
+    layers: LayerSet,
     /// Planar index of the grid point the pin is entered at.
     access: usize,
     /// The stub: a polyline from the pad centre to the access point (just the centre
@@ -216,10 +216,10 @@ impl<'a> Router<'a> {
                     continue;
                 };
                 let net = pad_net.get(&(pi as u32, k as u32)).copied();
-                let hole = pad.layers == Layers::NONE;
+                let hole = pad.layers == LayerSet::NONE;
                 obstacles.push(Obstacle {
                     prim: pad.prim,
-                    layers: if hole { Layers::BOTH } else { pad.layers },
+                    layers: if hole { LayerSet::BOTH } else { pad.layers },
                     owner: if hole { WALL } else { net.unwrap_or(WALL) },
                     clearance: net
                         .map_or(rules.clearance, |n| classes[class_of(n as usize)].clearance),
@@ -250,7 +250,7 @@ impl<'a> Router<'a> {
                     design.footprints[p.part.index()].pads[p.pad as usize].number
                 );
                 match placed_pad(design, p.part, p.pad as usize) {
-                    Some(pad) if pad.layers != Layers::NONE => plan.pins.push(Pin {
+                    Some(pad) if pad.layers != LayerSet::NONE => plan.pins.push(Pin {
                         name,
                         centre: pad.at,
                         pad: pad.prim,
@@ -281,11 +281,11 @@ impl<'a> Router<'a> {
 
         // Where each pin is entered, nets in routing order; stubs become fixed copper.
         let outline_vertices = board.outline.vertices();
-        let keepouts: Vec<(Vec<Point>, Layers)> = board
+        let keepouts: Vec<(Vec<Point>, LayerSet)> = board
             .keepouts
             .iter()
             .filter(|k| k.copper)
-            .map(|k| (k.shape.vertices(), Layers::from_keepout(k.layers)))
+            .map(|k| (k.shape.vertices(), LayerSet::from_keepout(k.layers)))
             .collect();
         let mut fixed = Fixed::new(
             obstacles,
@@ -360,7 +360,7 @@ impl<'a> Router<'a> {
         for o in &fixed.obstacles {
             builder.add_copper(o);
         }
-        builder.add_region(&outline_vertices, Layers::BOTH, true, |_| {
+        builder.add_region(&outline_vertices, LayerSet::BOTH, true, |_| {
             rules.edge_clearance
         });
         for (poly, layers) in &keepouts {

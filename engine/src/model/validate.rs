@@ -1,4 +1,4 @@
-//! Checks a [`Board`] and resolves it into a [`Design`]: footprints expanded, pins
+//! Validates a [`Board`] and resolves it into a [`Design`]: footprints expanded, pins
 //! resolved, every number finite and sane. Each problem names the offending item by a
 //! [`ItemPath`] (`parts[3].footprint`), which the file loader turns into a line and column.
 
