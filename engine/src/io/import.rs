@@ -14,8 +14,8 @@ use thiserror::Error;
 
 use super::Location;
 use crate::model::board::{Copper, Net, NetClass, Part, Rules};
-use crate::model::validate::MAX_COORD_MM;
 use crate::model::names::NameError;
+use crate::model::validate::MAX_COORD_MM;
 use crate::model::{Board, Footprint, FootprintSpec, Point, Problem, Shape, Side, resolve};
 
 /// Name of the net class every imported net gets unless its file names another.

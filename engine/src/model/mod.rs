@@ -10,6 +10,6 @@ pub mod validate;
 pub use board::{
     Board, Design, KnownOptimum, Layer, NetId, PartId, PinRef, Shape, Side, rect_to_board, to_board,
 };
-pub use validate::{Problem, problems_line, resolve};
 pub use footprint::{Footprint, FootprintSpec, Pad, PadKind, PadShape};
 pub use geom::{Point, Quarter, Rect};
+pub use validate::{Problem, problems_line, resolve};

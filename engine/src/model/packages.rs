@@ -111,12 +111,7 @@ fn build_custom(specs: &[PadSpec], courtyard: Option<Rect>) -> Result<Footprint,
 }
 
 /// Checks that a dimension is finite and within a sane range.
-fn check_dim(
-    what: &'static str,
-    value: f64,
-    min: f64,
-    max: f64,
-) -> Result<(), FootprintError> {
+fn check_dim(what: &'static str, value: f64, min: f64, max: f64) -> Result<(), FootprintError> {
     if value.is_finite() && value >= min && value <= max {
         Ok(())
     } else {

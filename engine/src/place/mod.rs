@@ -14,8 +14,8 @@
 
 pub mod anneal;
 pub mod baseline;
-pub mod generate;
 mod fast;
+pub mod generate;
 mod hash;
 pub mod layout;
 pub mod legal;
@@ -39,7 +39,6 @@ pub use replicas::Chains;
 pub use schedule::Schedule;
 
 use crate::model::Design;
-
 
 /// Places every unlocked part: anneal over the move budget from the start (or starts)
 /// `opts.start` names, on `opts.replicas` chains each, then the legal finish of the best
@@ -378,4 +377,3 @@ impl Placer {
         Ok(placed)
     }
 }
-

@@ -27,9 +27,9 @@ use std::time::Instant;
 
 use super::anneal::{Annealer, StageReport};
 use super::options::{AnnealOptions, PlaceError, default_budget};
+use super::outcome::{Placed, anneal_flat, finish};
 use super::rng::Rng;
 use super::spectral::{self, Graph, median_side};
-use super::outcome::{Placed, anneal_flat, finish};
 use crate::model::board::{Board, Copper, Net, Part, Side, rect_to_board, to_board};
 use crate::model::footprint::{FootprintSpec, PadShape, PadSpec};
 use crate::model::{Design, Point, Rect, resolve};

@@ -17,7 +17,7 @@ use super::grid::{
     ClassRule, Fixed, Lattice, MapBuilder, Obstacle, SLACK, StaticMaps, Surroundings, WALL,
     edge_of_step, free_for,
 };
-use super::search::{Costs, DIRS, Dims, Params, Place, Search};
+use super::search::{Costs, DIRS, Dims, Node, Params, Search};
 use super::{
     MAX_GRID_POINTS, RouteError, RouteOptions, RoutePhase, RouteProgress, RouteResult, Unrouted,
 };
@@ -1003,8 +1003,8 @@ struct NetCosts<'r> {
 
 impl Costs for NetCosts<'_> {
     #[inline]
-    fn step(&self, from: Place, to: u32, dir: usize) -> Option<f64> {
-        let Place { x, y, layer: l, .. } = from;
+    fn step(&self, from: Node, to: u32, dir: usize) -> Option<f64> {
+        let Node { x, y, layer: l, .. } = from;
         let fi = y * self.w + x;
         let (kind, at) = edge_of_step(self.w, x, y, dir);
         if !free_for(self.edges[l][kind][at], self.net) {

@@ -21,9 +21,9 @@
 //! same on every machine.
 
 use super::Annealer;
+use crate::model::{Point, Quarter};
 use crate::place::fast::round;
 use crate::place::layout::PartMove;
-use crate::model::{Point, Quarter};
 
 /// [`Ahead::part`] before the first draw.
 pub(super) const NOT_DRAWN: u32 = u32::MAX;
