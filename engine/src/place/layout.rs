@@ -8,7 +8,7 @@
 //! - OUT is the courtyard area lying outside the board outline;
 //! - KO is the courtyard area inside part keep-outs on the part's side.
 //!
-//! A move is evaluated by [`Layout::evaluate`] (in [`energy`]), which changes the pins and net boxes of the
+//! A move is evaluated by [`Layout::evaluate`], which changes the pins and net boxes of the
 //! moved parts in place and returns the change of each term; the caller then either
 //! [`Layout::commit`]s or [`Layout::revert`]s. Only the moved parts' pins, their nets and
 //! the parts near them (found through the spatial hash) are visited, so the cost of a move
