@@ -120,7 +120,7 @@ impl LehrApp {
     /// Imports a netlist (with its parts table or footprint mapping when one lies beside
     /// it, see [`files::companion`]) as a new board that is not saved yet.
     fn import_netlist(&mut self, path: &Path) {
-        use lehr_engine::io::import::{Format, ImportFiles, ImportOptions, import_file};
+        use lehr_engine::io::{Format, ImportFiles, ImportOptions, import_file};
         let format = std::fs::read(path).map(|b| Format::detect(path, &b));
         let (parts, footprints) = match format {
             Ok(Format::Connections) => (files::companion(path, "parts.csv"), None),

@@ -19,3 +19,5 @@ mod route;
 /// IPC-2221 conductor sizing and the design-rule checker.
 mod rules;
 mod samples;
+/// The engine's module structure: no import loops, no overlong files.
+mod structure;

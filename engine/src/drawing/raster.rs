@@ -108,7 +108,7 @@ impl FastPen<'_> {
 
 /// Whether a polygon is convex: every turn goes the same way (collinear ones allowed).
 /// A star also turns one way only; the model rejects self-crossing outlines before they
-/// get here (`model::check`).
+/// get here (`model::validate`).
 fn is_convex(pts: &[(f32, f32)]) -> bool {
     let n = pts.len();
     if n < 3 {

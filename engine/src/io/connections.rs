@@ -373,96 +373,134 @@ pub fn import_connections(
     parts: Option<(&str, &[u8])>,
     opts: &ImportOptions,
 ) -> Result<Imported, ImportError> {
-    let mut warnings = Vec::new();
-    let mut problems = Vec::new();
-    let mut net_list = Netlist {
-        file: file.to_string(),
-        footprint_hint: "give it a footprint column in the parts table or the connection list",
-        ..Netlist::default()
+    let mut reader = Reader {
+        warnings: Vec::new(),
+        problems: Vec::new(),
+        net_list: Netlist {
+            file: file.to_string(),
+            footprint_hint: "give it a footprint column in the parts table or the connection list",
+            ..Netlist::default()
+        },
+        part_index: HashMap::new(),
+        from_table: Vec::new(),
+        net_index: HashMap::new(),
+        given_here: HashMap::new(),
     };
-    // reference -> index into net_list.parts, and the line of its first mention.
-    let mut part_index: HashMap<String, usize> = HashMap::new();
-    // Parts that had a row of their own in the parts table.
-    let mut from_table = Vec::new();
-
     if let Some((pfile, pbytes)) = parts {
         let (h, rows) = table(
             pbytes,
             pfile,
             &[Column::Part, Column::Footprint],
-            &mut warnings,
+            &mut reader.warnings,
         )?;
         for r in &rows {
-            let Some(rf) = h.get(r, Column::Part) else {
-                continue;
-            };
-            if let Err(reason) = check_reference(&rf.text) {
-                problems.push(problem(pfile, rf.at, reason));
-                continue;
-            }
-            if let Some(&i) = part_index.get(&rf.text) {
-                problems.push(problem(
-                    pfile,
-                    rf.at,
-                    Reason::DuplicatePart {
-                        part: rf.text.clone(),
-                        first_line: net_list.parts[i].at.line,
-                    },
-                ));
-                continue;
-            }
-            let fp = h.get(r, Column::Footprint);
-            let footprint = match fp {
-                Some(f) if f.text.is_empty() => None,
-                Some(f) => match parse_footprint_name(&f.text) {
-                    Ok(spec) => spec.build().ok().map(|b| (spec, b)),
-                    Err(e) => {
-                        problems.push(problem(pfile, f.at, Reason::Footprint(e)));
-                        continue;
-                    }
-                },
-                None => None,
-            };
-            let value = h
-                .get(r, Column::Value)
-                .map(|f| f.text.clone())
-                .unwrap_or_default();
-            part_index.insert(rf.text.clone(), net_list.parts.len());
-            from_table.push(true);
-            net_list.parts.push(NetlistPart {
-                reference: rf.text.clone(),
-                value,
-                footprint,
-                file: pfile.to_string(),
-                at: rf.at,
-            });
+            reader.table_row(&h, r, pfile);
         }
     }
-
     let (h, rows) = table(
         bytes,
         file,
         &[Column::Net, Column::Part, Column::Pin],
-        &mut warnings,
+        &mut reader.warnings,
     )?;
-    let mut net_index: HashMap<String, usize> = HashMap::new();
-    // Where each part's footprint and value were given in the connection list.
-    let mut given_here: HashMap<String, Given> = HashMap::new();
     for r in &rows {
+        reader.connection_row(&h, r, file);
+    }
+    let Reader {
+        warnings,
+        problems,
+        mut net_list,
+        ..
+    } = reader;
+    if !problems.is_empty() {
+        return Err(ImportError::Invalid { problems });
+    }
+    net_list.warnings = warnings;
+    net_list.into_board(opts)
+}
+
+/// What [`import_connections`] gathers, row by row.
+struct Reader {
+    warnings: Vec<Warning>,
+    problems: Vec<ImportProblem>,
+    net_list: Netlist,
+    /// Reference -> index into `net_list.parts`.
+    part_index: HashMap<String, usize>,
+    /// Whether each part had a row of its own in the parts table.
+    from_table: Vec<bool>,
+    net_index: HashMap<String, usize>,
+    /// Where each part's footprint and value were given in the connection list.
+    given_here: HashMap<String, Given>,
+}
+
+impl Reader {
+    /// One row of the parts table.
+    fn table_row(&mut self, h: &Header, r: &Record, pfile: &str) {
+        let Some(rf) = h.get(r, Column::Part) else {
+            return;
+        };
+        if let Err(reason) = check_reference(&rf.text) {
+            self.problems.push(problem(pfile, rf.at, reason));
+            return;
+        }
+        if let Some(&i) = self.part_index.get(&rf.text) {
+            self.problems.push(problem(
+                pfile,
+                rf.at,
+                Reason::DuplicatePart {
+                    part: rf.text.clone(),
+                    first_line: self.net_list.parts[i].at.line,
+                },
+            ));
+            return;
+        }
+        let fp = h.get(r, Column::Footprint);
+        let footprint = match fp {
+            Some(f) if f.text.is_empty() => None,
+            Some(f) => match parse_footprint_name(&f.text) {
+                Ok(spec) => spec.build().ok().map(|b| (spec, b)),
+                Err(e) => {
+                    self.problems
+                        .push(problem(pfile, f.at, Reason::Footprint(e)));
+                    return;
+                }
+            },
+            None => None,
+        };
+        let value = h
+            .get(r, Column::Value)
+            .map(|f| f.text.clone())
+            .unwrap_or_default();
+        self.part_index
+            .insert(rf.text.clone(), self.net_list.parts.len());
+        self.from_table.push(true);
+        self.net_list.parts.push(NetlistPart {
+            reference: rf.text.clone(),
+            value,
+            footprint,
+            file: pfile.to_string(),
+            at: rf.at,
+        });
+    }
+
+    /// One row of the connection list: a pin on a net, perhaps with the part's
+    /// footprint, value and the net's class.
+    fn connection_row(&mut self, h: &Header, r: &Record, file: &str) {
         let (Some(nf), Some(rf), Some(pf)) = (
             h.get(r, Column::Net),
             h.get(r, Column::Part),
             h.get(r, Column::Pin),
         ) else {
-            continue;
+            return;
         };
         if nf.text.is_empty() {
-            problems.push(problem(file, nf.at, Reason::EmptyField("net name")));
-            continue;
+            self.problems
+                .push(problem(file, nf.at, Reason::EmptyField("net name")));
+            return;
         }
         if let Err(reason) = check_reference(&rf.text) {
-            problems.push(problem(file, rf.at, reason));
-            continue;
+            self.problems.push(problem(file, rf.at, reason));
+            return;
         }
         if let Err(reason) = check_pin(&pf.text) {
             let reason = if pf.text.is_empty() {
@@ -470,31 +508,41 @@ pub fn import_connections(
             } else {
                 reason
             };
-            problems.push(problem(file, pf.at, reason));
-            continue;
+            self.problems.push(problem(file, pf.at, reason));
+            return;
         }
-        // The part: from the table, or first seen here.
-        let pi = match part_index.get(&rf.text) {
+        let pi = self.part_of(rf, file);
+        self.footprint_and_value(h, r, rf, pi, file);
+        self.pin_on_net(h, r, nf, rf, pf, file);
+    }
+
+    /// The part a row names: from the table, or first seen here.
+    fn part_of(&mut self, rf: &Field, file: &str) -> usize {
+        match self.part_index.get(&rf.text) {
             Some(&i) => i,
             None => {
-                part_index.insert(rf.text.clone(), net_list.parts.len());
-                from_table.push(false);
-                net_list.parts.push(NetlistPart {
+                self.part_index
+                    .insert(rf.text.clone(), self.net_list.parts.len());
+                self.from_table.push(false);
+                self.net_list.parts.push(NetlistPart {
                     reference: rf.text.clone(),
                     value: String::new(),
                     footprint: None,
                     file: file.to_string(),
                     at: rf.at,
                 });
-                net_list.parts.len() - 1
+                self.net_list.parts.len() - 1
             }
-        };
-        // Footprint and value columns of the connection list, when present and filled.
-        let seen = given_here.entry(rf.text.clone()).or_default();
+        }
+    }
+
+    /// Footprint and value columns of the connection list, when present and filled.
+    fn footprint_and_value(&mut self, h: &Header, r: &Record, rf: &Field, pi: usize, file: &str) {
+        let seen = self.given_here.entry(rf.text.clone()).or_default();
         if let Some(f) = h.get(r, Column::Footprint).filter(|f| !f.text.is_empty()) {
             match &seen.0 {
                 Some((first, line)) if !first.eq_ignore_ascii_case(&f.text) => {
-                    problems.push(problem(
+                    self.problems.push(problem(
                         file,
                         f.at,
                         Reason::Conflict {
@@ -509,8 +557,8 @@ pub fn import_connections(
                 Some(_) => {}
                 None => {
                     seen.0 = Some((f.text.clone(), f.at.line));
-                    if from_table[pi] && net_list.parts[pi].footprint.is_some() {
-                        warnings.push(Warning {
+                    if self.from_table[pi] && self.net_list.parts[pi].footprint.is_some() {
+                        self.warnings.push(Warning {
                             file: file.to_string(),
                             at: f.at,
                             message: format!(
@@ -521,9 +569,12 @@ pub fn import_connections(
                     } else {
                         match parse_footprint_name(&f.text) {
                             Ok(spec) => {
-                                net_list.parts[pi].footprint = spec.build().ok().map(|b| (spec, b));
+                                self.net_list.parts[pi].footprint =
+                                    spec.build().ok().map(|b| (spec, b));
                             }
-                            Err(e) => problems.push(problem(file, f.at, Reason::Footprint(e))),
+                            Err(e) => self
+                                .problems
+                                .push(problem(file, f.at, Reason::Footprint(e))),
                         }
                     }
                 }
@@ -531,7 +582,7 @@ pub fn import_connections(
         }
         if let Some(v) = h.get(r, Column::Value).filter(|f| !f.text.is_empty()) {
             match &seen.1 {
-                Some((first, line)) if *first != v.text => problems.push(problem(
+                Some((first, line)) if *first != v.text => self.problems.push(problem(
                     file,
                     v.at,
                     Reason::Conflict {
@@ -545,34 +596,46 @@ pub fn import_connections(
                 Some(_) => {}
                 None => {
                     seen.1 = Some((v.text.clone(), v.at.line));
-                    if net_list.parts[pi].value.is_empty() {
-                        net_list.parts[pi].value = v.text.clone();
+                    if self.net_list.parts[pi].value.is_empty() {
+                        self.net_list.parts[pi].value = v.text.clone();
                     }
                 }
             }
         }
-        // The net.
+    }
+
+    /// The row's pin, added to its net (made when first seen), and the net's class.
+    fn pin_on_net(
+        &mut self,
+        h: &Header,
+        r: &Record,
+        nf: &Field,
+        rf: &Field,
+        pf: &Field,
+        file: &str,
+    ) {
         let class = h
             .get(r, Column::Class)
             .filter(|f| !f.text.is_empty())
             .map(|f| (f.text.clone(), f.at));
-        let ni = match net_index.get(&nf.text) {
+        let ni = match self.net_index.get(&nf.text) {
             Some(&i) => i,
             None => {
-                net_index.insert(nf.text.clone(), net_list.nets.len());
-                net_list.nets.push(NetlistNet {
+                self.net_index
+                    .insert(nf.text.clone(), self.net_list.nets.len());
+                self.net_list.nets.push(NetlistNet {
                     name: nf.text.clone(),
                     class: None,
                     pins: Vec::new(),
                     at: nf.at,
                 });
-                net_list.nets.len() - 1
+                self.net_list.nets.len() - 1
             }
         };
-        let net = &mut net_list.nets[ni];
+        let net = &mut self.net_list.nets[ni];
         if let Some((c, at)) = class {
             match &net.class {
-                Some(first) if *first != c => problems.push(problem(
+                Some(first) if *first != c => self.problems.push(problem(
                     file,
                     at,
                     Reason::ClassConflict {
@@ -592,11 +655,6 @@ pub fn import_connections(
             at: pf.at,
         });
     }
-    if !problems.is_empty() {
-        return Err(ImportError::Invalid { problems });
-    }
-    net_list.warnings = warnings;
-    net_list.into_board(opts)
 }
 
 /// The footprint and value a connection list gave a part, each with the line where it

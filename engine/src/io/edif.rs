@@ -566,9 +566,47 @@ pub fn import_edif(
     for other in tops.iter().filter(|l| !std::ptr::eq(*l, edif)) {
         rd.warn(other.at, "text after the (edif ...) list; skipped".into());
     }
+    let (cells, design) = library_cells(&mut rd, edif);
+    let Some(top) = top_cell(&cells, design.as_ref()) else {
+        return Err(ImportError::one(
+            file,
+            edif.at,
+            Reason::Syntax("no cell has contents with instances: nothing to import".into()),
+        ));
+    };
+    let contents = cells[top].2.contents.expect("chosen for its contents");
 
-    // Cells by (library, cell) in file order.
-    let mut cells: Vec<(String, String, Cell)> = Vec::new();
+    let mut netlist = Netlist {
+        file: file.to_string(),
+        footprint_hint: "give the instance a footprint property or map its cell in a footprint mapping file",
+        ..Netlist::default()
+    };
+    let mut problems = Vec::new();
+    let instances = read_instances(&mut rd, contents, &cells, &map, &mut netlist, &mut problems);
+    read_nets(
+        &mut rd,
+        contents,
+        &cells,
+        &instances,
+        &mut netlist,
+        &mut problems,
+    );
+    if !problems.is_empty() {
+        problems.sort_by_key(|p| p.at);
+        return Err(ImportError::Invalid { problems });
+    }
+    netlist.warnings = rd.warnings;
+    netlist.into_board(opts)
+}
+
+/// Cells by (library, cell name, cell), in file order.
+type Cells<'t> = Vec<(String, String, Cell<'t>)>;
+/// Instance key -> (reference, index of its cell in [`Cells`]).
+type Instances = HashMap<String, (String, Option<usize>)>;
+
+/// The libraries' cells, in file order, and the design's (library, cell), if named.
+fn library_cells<'t>(rd: &mut Reader<'_>, edif: &'t List) -> (Cells<'t>, Option<(String, String)>) {
+    let mut cells: Cells<'t> = Vec::new();
     let mut design: Option<(String, String)> = None;
     for c in edif.body() {
         match c.head().as_deref() {
@@ -616,44 +654,53 @@ pub fn import_edif(
             _ => rd.skip(c, "edif"),
         }
     }
-    let find_cell = |lib: &str, cell: &str| {
-        cells
-            .iter()
-            .position(|(l, c, _)| c == cell && (lib.is_empty() || l == lib))
-            .or_else(|| cells.iter().position(|(_, c, _)| c == cell))
-    };
-    let top = design
-        .as_ref()
-        .and_then(|(l, c)| find_cell(l, c))
+    (cells, design)
+}
+
+/// The index of cell `cell` of library `lib` (any library when not found there, or when
+/// `lib` is empty).
+fn find_cell(cells: &Cells<'_>, lib: &str, cell: &str) -> Option<usize> {
+    cells
+        .iter()
+        .position(|(l, c, _)| c == cell && (lib.is_empty() || l == lib))
+        .or_else(|| cells.iter().position(|(_, c, _)| c == cell))
+}
+
+/// The cell to import: the design's, when it has contents, else the last cell with
+/// instances.
+fn top_cell(cells: &Cells<'_>, design: Option<&(String, String)>) -> Option<usize> {
+    design
+        .and_then(|(l, c)| find_cell(cells, l, c))
         .filter(|&i| cells[i].2.contents.is_some())
         .or_else(|| {
             cells.iter().rposition(|(_, _, c)| {
                 c.contents
                     .is_some_and(|l| l.lists().any(|i| i.is("instance")))
             })
-        });
-    let Some(top) = top else {
-        return Err(ImportError::one(
-            file,
-            edif.at,
-            Reason::Syntax("no cell has contents with instances: nothing to import".into()),
-        ));
-    };
-    let contents = cells[top].2.contents.expect("chosen for its contents");
+        })
+}
 
-    let mut netlist = Netlist {
-        file: file.to_string(),
-        footprint_hint: "give the instance a footprint property or map its cell in a footprint mapping file",
-        ..Netlist::default()
-    };
-    let mut problems = Vec::new();
-    let problem = |at: Location, reason: Reason| ImportProblem {
+/// A problem of the netlist file at `at`.
+fn problem(file: &str, at: Location, reason: Reason) -> ImportProblem {
+    ImportProblem {
         file: file.to_string(),
         at,
         reason,
-    };
-    // instance key -> (reference, cell index)
-    let mut instances: HashMap<String, (String, Option<usize>)> = HashMap::new();
+    }
+}
+
+/// The top cell's instances, as parts of `netlist`.
+fn read_instances(
+    rd: &mut Reader<'_>,
+    contents: &List,
+    cells: &Cells<'_>,
+    map: &HashMap<String, (FootprintSpec, Footprint)>,
+    netlist: &mut Netlist,
+    problems: &mut Vec<ImportProblem>,
+) -> Instances {
+    let file = rd.file;
+    let problem = |at: Location, reason: Reason| problem(file, at, reason);
+    let mut instances: Instances = HashMap::new();
     let mut first_ref: HashMap<String, usize> = HashMap::new();
     for inst in contents.lists().filter(|l| l.is("instance")) {
         let Some((key, display, _)) = name_def(inst.items.get(1)) else {
@@ -692,7 +739,7 @@ pub fn import_edif(
         }
         first_ref.insert(reference.clone(), inst.at.line);
         let cref = cell_ref(inst);
-        let ci = cref.as_ref().and_then(|(l, c)| find_cell(l, c));
+        let ci = cref.as_ref().and_then(|(l, c)| find_cell(cells, l, c));
         if cref.is_none() {
             rd.warn(
                 inst.at,
@@ -714,30 +761,12 @@ pub fn import_edif(
             );
             continue;
         }
-        let cell_props: &[Property] = ci.map_or(&[], |i| cells[i].2.props.as_slice());
-        let names = ["footprint", "package"];
-        let footprint = if let Some(p) = find_property(&props, &names) {
-            let text = p.value.as_deref().unwrap_or_default();
-            match parse_footprint_name(text) {
-                Ok(spec) => spec.build().ok().map(|b| (spec, b)),
-                Err(e) => {
-                    problems.push(problem(p.at, Reason::Footprint(e)));
-                    continue;
-                }
+        let footprint = match instance_footprint(&props, cref.as_ref(), ci, cells, map) {
+            Ok(f) => f,
+            Err((at, reason)) => {
+                problems.push(problem(at, reason));
+                continue;
             }
-        } else if let Some(m) = cref.as_ref().and_then(|(_, c)| map.get(c)) {
-            Some(m.clone())
-        } else if let Some(p) = find_property(cell_props, &names) {
-            let text = p.value.as_deref().unwrap_or_default();
-            match parse_footprint_name(text) {
-                Ok(spec) => spec.build().ok().map(|b| (spec, b)),
-                Err(e) => {
-                    problems.push(problem(p.at, Reason::Footprint(e)));
-                    continue;
-                }
-            }
-        } else {
-            None
         };
         let value = find_property(&props, &["value"])
             .and_then(|p| p.value.clone())
@@ -752,7 +781,50 @@ pub fn import_edif(
             at: inst.at,
         });
     }
+    instances
+}
 
+/// An instance's footprint: its own footprint property, else the mapping file's entry
+/// for its cell, else the cell's property; `Err` with the spot of a bad footprint name.
+fn instance_footprint(
+    props: &[Property],
+    cref: Option<&(String, String)>,
+    ci: Option<usize>,
+    cells: &Cells<'_>,
+    map: &HashMap<String, (FootprintSpec, Footprint)>,
+) -> Result<Option<(FootprintSpec, Footprint)>, (Location, Reason)> {
+    let cell_props: &[Property] = ci.map_or(&[], |i| cells[i].2.props.as_slice());
+    let names = ["footprint", "package"];
+    Ok(if let Some(p) = find_property(props, &names) {
+        let text = p.value.as_deref().unwrap_or_default();
+        match parse_footprint_name(text) {
+            Ok(spec) => spec.build().ok().map(|b| (spec, b)),
+            Err(e) => return Err((p.at, Reason::Footprint(e))),
+        }
+    } else if let Some(m) = cref.and_then(|(_, c)| map.get(c)) {
+        Some(m.clone())
+    } else if let Some(p) = find_property(cell_props, &names) {
+        let text = p.value.as_deref().unwrap_or_default();
+        match parse_footprint_name(text) {
+            Ok(spec) => spec.build().ok().map(|b| (spec, b)),
+            Err(e) => return Err((p.at, Reason::Footprint(e))),
+        }
+    } else {
+        None
+    })
+}
+
+/// The top cell's nets, with the pins they join, as nets of `netlist`.
+fn read_nets(
+    rd: &mut Reader<'_>,
+    contents: &List,
+    cells: &Cells<'_>,
+    instances: &Instances,
+    netlist: &mut Netlist,
+    problems: &mut Vec<ImportProblem>,
+) {
+    let file = rd.file;
+    let problem = |at: Location, reason: Reason| problem(file, at, reason);
     let mut net_lines: HashMap<String, usize> = HashMap::new();
     for c in contents.lists() {
         match c.head().as_deref() {
@@ -784,59 +856,7 @@ pub fn import_edif(
                 for j in c.body() {
                     match j.head().as_deref() {
                         Some("joined") => {
-                            for pr in j.lists() {
-                                if !pr.is("portref") {
-                                    rd.skip(pr, &format!("net {name}"));
-                                    continue;
-                                }
-                                let Some((port, port_text, port_at)) = name_def(pr.items.get(1))
-                                else {
-                                    rd.warn(
-                                        pr.at,
-                                        "a portRef without a plain port name (bus members are not read); skipped".into(),
-                                    );
-                                    continue;
-                                };
-                                let Some(ir) = pr.child("instanceref") else {
-                                    rd.warn(
-                                        pr.at,
-                                        format!(
-                                            "net {name} joins the design's own port {port_text}, which is no part's pin; left out"
-                                        ),
-                                    );
-                                    continue;
-                                };
-                                let Some((ik, _, _)) = name_def(ir.items.get(1)) else {
-                                    rd.warn(ir.at, "an instanceRef without a name; skipped".into());
-                                    continue;
-                                };
-                                let Some((reference, ci)) = instances.get(&ik) else {
-                                    if !contents.lists().any(|i| {
-                                        i.is("instance")
-                                            && name_def(i.items.get(1)).is_some_and(|n| n.0 == ik)
-                                    }) {
-                                        problems.push(problem(
-                                            ir.at,
-                                            Reason::Syntax(format!(
-                                                "net {name}: no instance is named \"{ik}\""
-                                            )),
-                                        ));
-                                    }
-                                    continue;
-                                };
-                                let pin = ci
-                                    .and_then(|i| cells[i].2.ports.get(&port).cloned())
-                                    .unwrap_or(port_text);
-                                if let Err(reason) = check_pin(&pin) {
-                                    problems.push(problem(port_at, reason));
-                                    continue;
-                                }
-                                net.pins.push(NetlistPin {
-                                    reference: reference.clone(),
-                                    pin,
-                                    at: pr.at,
-                                });
-                            }
+                            joined_pins(rd, j, contents, cells, instances, &mut net, problems);
                         }
                         Some("property") => {
                             if let Some(p) = rd.property(j)
@@ -856,12 +876,71 @@ pub fn import_edif(
             _ => rd.skip(c, "contents"),
         }
     }
-    if !problems.is_empty() {
-        problems.sort_by_key(|p| p.at);
-        return Err(ImportError::Invalid { problems });
+}
+
+/// The pins of one `(joined ...)` list, added to `net`.
+fn joined_pins(
+    rd: &mut Reader<'_>,
+    j: &List,
+    contents: &List,
+    cells: &Cells<'_>,
+    instances: &Instances,
+    net: &mut NetlistNet,
+    problems: &mut Vec<ImportProblem>,
+) {
+    let file = rd.file;
+    let problem = |at: Location, reason: Reason| problem(file, at, reason);
+    let name = net.name.clone();
+    for pr in j.lists() {
+        if !pr.is("portref") {
+            rd.skip(pr, &format!("net {name}"));
+            continue;
+        }
+        let Some((port, port_text, port_at)) = name_def(pr.items.get(1)) else {
+            rd.warn(
+                pr.at,
+                "a portRef without a plain port name (bus members are not read); skipped".into(),
+            );
+            continue;
+        };
+        let Some(ir) = pr.child("instanceref") else {
+            rd.warn(
+                    pr.at,
+                    format!(
+                        "net {name} joins the design's own port {port_text}, which is no part's pin; left out"
+                    ),
+                );
+            continue;
+        };
+        let Some((ik, _, _)) = name_def(ir.items.get(1)) else {
+            rd.warn(ir.at, "an instanceRef without a name; skipped".into());
+            continue;
+        };
+        let Some((reference, ci)) = instances.get(&ik) else {
+            if !contents
+                .lists()
+                .any(|i| i.is("instance") && name_def(i.items.get(1)).is_some_and(|n| n.0 == ik))
+            {
+                problems.push(problem(
+                    ir.at,
+                    Reason::Syntax(format!("net {name}: no instance is named \"{ik}\"")),
+                ));
+            }
+            continue;
+        };
+        let pin = ci
+            .and_then(|i| cells[i].2.ports.get(&port).cloned())
+            .unwrap_or(port_text);
+        if let Err(reason) = check_pin(&pin) {
+            problems.push(problem(port_at, reason));
+            continue;
+        }
+        net.pins.push(NetlistPin {
+            reference: reference.clone(),
+            pin,
+            at: pr.at,
+        });
     }
-    netlist.warnings = rd.warnings;
-    netlist.into_board(opts)
 }
 
 #[cfg(test)]

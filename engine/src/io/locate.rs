@@ -9,7 +9,7 @@
 
 use std::fmt;
 
-use crate::model::check::{ItemPath, PathSeg};
+use crate::model::validate::{ItemPath, PathSeg};
 
 /// A position in a text: 1-based line and column, columns counted in characters.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, PartialOrd, Ord, Hash)]

@@ -15,6 +15,7 @@
 mod atomic;
 pub mod connections;
 pub mod edif;
+pub mod formats;
 pub mod import;
 mod locate;
 
@@ -25,12 +26,11 @@ use std::path::{Path, PathBuf};
 use ron::extensions::Extensions;
 use thiserror::Error;
 
-use crate::model::check::resolve;
+use crate::model::validate::resolve;
 use crate::model::{Board, Design, Problem};
 
-pub use import::{
-    Format, ImportError, ImportFiles, ImportOptions, Imported, OutlineSize, import_file,
-};
+pub use formats::{Format, ImportFiles, import_file};
+pub use import::{ImportError, ImportOptions, Imported, OutlineSize};
 pub use locate::{Location, Locator, locate};
 
 /// The recommended ending of a board file's name, as in `thermostat.board.ron`. (File

@@ -362,7 +362,7 @@ pub struct PinRef {
 }
 
 /// A board that passed every check, with footprints expanded and pins resolved.
-/// Construct it with [`Design::new`] (see `model::check`).
+/// Construct it with [`Design::new`] (see `model::validate`).
 #[derive(Clone, Debug)]
 pub struct Design {
     pub board: Board,

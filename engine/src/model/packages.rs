@@ -18,7 +18,7 @@
 //! dimensions, a pitch that does not fit the body) give a [`FootprintError`].
 
 use super::footprint::{
-    COURTYARD_EXCESS, Footprint, FootprintError, FootprintSpec, Pad, PadKind, PadShape, check_dim,
+    COURTYARD_EXCESS, Footprint, FootprintError, FootprintSpec, Pad, PadKind, PadShape, PadSpec,
 };
 use super::geom::{Point, Rect};
 
@@ -30,6 +30,99 @@ const MIN_PAD_GAP: f64 = 0.1;
 /// lehr sizes from a parameter: radial leads and plated mounting holes (assumed; a value
 /// most board makers accept).
 const MIN_ANNULAR_RING: f64 = 0.15;
+
+impl FootprintSpec {
+    /// Expands the spec into pads and courtyard.
+    pub fn build(&self) -> Result<Footprint, FootprintError> {
+        match self {
+            FootprintSpec::Custom { pads, courtyard } => build_custom(pads, *courtyard),
+            other => build_package(other),
+        }
+    }
+}
+
+fn build_custom(specs: &[PadSpec], courtyard: Option<Rect>) -> Result<Footprint, FootprintError> {
+    if specs.is_empty() && courtyard.is_none() {
+        return Err(FootprintError::BadCustom(
+            "needs at least one pad or a courtyard".into(),
+        ));
+    }
+    let mut pads = Vec::with_capacity(specs.len());
+    for s in specs {
+        check_dim("pad centre x", s.centre.x, -500.0, 500.0)?;
+        check_dim("pad centre y", s.centre.y, -500.0, 500.0)?;
+        check_dim("pad width", s.width, 0.01, 100.0)?;
+        check_dim("pad height", s.height, 0.01, 100.0)?;
+        let kind = match s.hole {
+            None => PadKind::Smd,
+            Some(d) => {
+                check_dim("pad hole", d, 0.05, 50.0)?;
+                if d >= s.width.min(s.height) {
+                    return Err(FootprintError::BadCustom(format!(
+                        "pad {} hole {} mm is not smaller than the pad",
+                        s.number, d
+                    )));
+                }
+                PadKind::ThroughHole {
+                    drill: d,
+                    plated: true,
+                }
+            }
+        };
+        if pads.iter().any(|p: &Pad| p.number == s.number) {
+            return Err(FootprintError::BadCustom(format!(
+                "pad number \"{}\" appears twice",
+                s.number
+            )));
+        }
+        pads.push(Pad {
+            number: s.number.clone(),
+            at: s.centre,
+            width: s.width,
+            height: s.height,
+            shape: s.shape,
+            kind,
+        });
+    }
+    let pad_extent = Rect::bounding(pads.iter().flat_map(|p| p.rect().corners()));
+    let courtyard = match courtyard {
+        Some(c) => {
+            for v in [c.min.x, c.min.y, c.max.x, c.max.y] {
+                check_dim("courtyard corner", v, -500.0, 500.0)?;
+            }
+            if c.width() <= 0.0 || c.height() <= 0.0 {
+                return Err(FootprintError::BadCustom(
+                    "courtyard has no area (min must be below and left of max)".into(),
+                ));
+            }
+            c
+        }
+        None => pad_extent
+            .expect("pads are not empty here")
+            .inflate(COURTYARD_EXCESS),
+    };
+    let body = pad_extent.unwrap_or(courtyard);
+    Ok(Footprint {
+        name: "custom".into(),
+        pads,
+        body,
+        courtyard,
+    })
+}
+
+/// Checks that a dimension is finite and within a sane range.
+fn check_dim(what: &'static str, value: f64, min: f64, max: f64) -> Result<(), FootprintError> {
+    if value.is_finite() && value >= min && value <= max {
+        Ok(())
+    } else {
+        Err(FootprintError::BadDimension {
+            what,
+            value,
+            min,
+            max,
+        })
+    }
+}
 
 /// Expands every spec except `Custom`, which footprint.rs handles itself.
 pub(crate) fn build_package(spec: &FootprintSpec) -> Result<Footprint, FootprintError> {

@@ -1,5 +1,5 @@
 //! The annealer: Metropolis acceptance and the stage loop that the cooling schedule
-//! drives over the move budget (the moves themselves are in [`super::moves`]).
+//! drives over the move budget (the moves themselves are in [`moves`]).
 //!
 //! One [`Annealer`] owns a [`Layout`] and a seeded [`Rng`]. The caller advances it in
 //! batches ([`Annealer::run_moves`], [`Annealer::run_stage`]) so that a worker thread can
@@ -8,10 +8,12 @@
 //! Nothing here reads a clock, and the same design, options and seed give the same
 //! placement bit for bit.
 
+mod moves;
+
 use serde::{Deserialize, Serialize};
 
+use self::moves::{Ahead, Proposal};
 use super::layout::{Layout, PartMove, Terms, Weights};
-use super::moves::{Ahead, Proposal};
 use super::options::{AnnealOptions, PlaceError, check_options, default_budget};
 use super::rng::Rng;
 use super::schedule::{Cooling, Leg, Schedule, StageStats};
@@ -71,7 +73,7 @@ pub struct Annealer {
     pub(super) movable: Vec<u32>,
     /// The parts of the next three moves, drawn ahead so that their data can be fetched
     /// into the cache while the moves before them run.
-    pub(super) ahead: [Ahead; 3],
+    ahead: [Ahead; 3],
     /// Grid cells (x0, x1, y0, y1) whose points lie on the board's box.
     pub(super) cells: (i64, i64, i64, i64),
     max_window: f64,
@@ -164,22 +166,6 @@ pub fn temperature_for_acceptance(ups: &[f64], chi: f64) -> f64 {
         }
     }
     (lo * hi).sqrt()
-}
-
-/// `v.round() as i64` (half away from zero, saturating, NaN to 0) without the library
-/// call that `f64::round` becomes on baseline x86-64 (no SSE4.1 rounding instruction):
-/// the move generator rounds four times a move. Exact, since `v - trunc(v)` is exact.
-#[inline]
-pub(crate) fn round(v: f64) -> i64 {
-    let t = v as i64;
-    let f = v - t as f64;
-    if f >= 0.5 {
-        t.saturating_add(1)
-    } else if f <= -0.5 {
-        t.saturating_sub(1)
-    } else {
-        t
-    }
 }
 
 impl Annealer {
@@ -754,42 +740,7 @@ fn stage_length(budget: u64, stages: u32, movable: usize) -> u64 {
 
 #[cfg(test)]
 mod tests {
-    use super::{round, temperature_for_acceptance};
-
-    /// The move generator's rounding agrees with the standard library's `f64::round`
-    /// (half away from zero) on halves, near-halves, zeros, large and odd values.
-    #[test]
-    fn round_matches_the_standard_library() {
-        let mut values = vec![
-            0.0,
-            -0.0,
-            0.5,
-            -0.5,
-            1.5,
-            -1.5,
-            2.5,
-            -2.5,
-            0.499_999_999_999_999_94,
-            -0.499_999_999_999_999_94,
-            1e15 + 0.5,
-            -1e15 - 0.5,
-            4_503_599_627_370_495.5,
-            123.456,
-            -987.654,
-        ];
-        let mut x = 0.1_f64;
-        for _ in 0..10_000 {
-            x = (x * 7.3 + 0.37) % 2000.0 - 1000.0;
-            values.push(x);
-            values.push(x.trunc() + 0.5);
-        }
-        for v in values {
-            assert_eq!(round(v), v.round() as i64, "{v}");
-        }
-        assert_eq!(round(f64::NAN), 0);
-        assert_eq!(round(f64::INFINITY), i64::MAX);
-        assert_eq!(round(f64::NEG_INFINITY), i64::MIN);
-    }
+    use super::temperature_for_acceptance;
 
     /// For equal uphill changes the measured temperature is Kirkpatrick's
     /// T = dE / ln(1/chi) (CHECK-VALUES.md: T0 / dE = 4.48 for chi = 0.8); on a spread of

@@ -178,14 +178,14 @@ impl SpatialHash {
     /// Cache hint: the header of bin `b` (see [`super::layout::Layout::prefetch_pins`]).
     #[inline]
     pub fn prefetch_header(&self, b: u32) {
-        super::layout::prefetch(self.bins.as_ptr().wrapping_add(b as usize));
+        super::fast::prefetch(self.bins.as_ptr().wrapping_add(b as usize));
     }
 
     /// Cache hint: the first entries of bin `b` (reads its header).
     #[inline]
     pub fn prefetch_entries(&self, b: u32) {
         if let Some(bin) = self.bins.get(b as usize) {
-            super::layout::prefetch(bin.as_ptr());
+            super::fast::prefetch(bin.as_ptr());
         }
     }
 

@@ -17,7 +17,7 @@
 
 use super::search::Dims;
 use crate::model::{Point, Rect};
-use crate::rules::geometry::{Buckets, Layers, Prim, edges};
+use crate::rules::geometry::{Buckets, LayerSet, Prim, edges};
 
 /// A blocker entry: nothing blocks.
 pub(crate) const FREE: u32 = u32::MAX;
@@ -151,7 +151,7 @@ impl ClassRule {
 #[derive(Clone, Copy, Debug)]
 pub(crate) struct Obstacle {
     pub prim: Prim,
-    pub layers: Layers,
+    pub layers: LayerSet,
     pub owner: u32,
     /// The owner's clearance (the rules' default for pads of no net).
     pub clearance: f64,
@@ -292,7 +292,7 @@ impl<'a> MapBuilder<'a> {
     pub fn add_region(
         &mut self,
         poly: &[Point],
-        layers: Layers,
+        layers: LayerSet,
         keep_inside: bool,
         gap: impl Fn(ClassRule) -> f64,
     ) {
@@ -428,7 +428,7 @@ pub(crate) struct Surroundings<'a> {
     pub outline_vertices: &'a [Point],
     pub edge_clearance: f64,
     /// Copper keep-outs: vertices and layers.
-    pub keepouts: &'a [(Vec<Point>, Layers)],
+    pub keepouts: &'a [(Vec<Point>, LayerSet)],
     pub max_clearance: f64,
 }
 
@@ -468,7 +468,7 @@ impl<'a> Fixed<'a> {
         &mut self,
         centre: Point,
         p: Point,
-        layers: Layers,
+        layers: LayerSet,
         net: u32,
         rule: ClassRule,
     ) -> bool {
@@ -506,7 +506,7 @@ impl<'a> Fixed<'a> {
     pub fn polyline_is_clear(
         &mut self,
         points: &[Point],
-        layers: Layers,
+        layers: LayerSet,
         net: u32,
         rule: ClassRule,
     ) -> bool {
@@ -530,7 +530,7 @@ impl<'a> Fixed<'a> {
         lat: &Lattice,
         pad: &Prim,
         centre: Point,
-        layers: Layers,
+        layers: LayerSet,
         net: u32,
         rule: ClassRule,
     ) -> Option<(usize, Vec<Point>)> {

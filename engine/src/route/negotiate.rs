@@ -17,13 +17,13 @@ use super::grid::{
     ClassRule, Fixed, Lattice, MapBuilder, Obstacle, SLACK, StaticMaps, Surroundings, WALL,
     edge_of_step, free_for,
 };
-use super::search::{Costs, DIRS, Dims, Params, Place, Search};
+use super::search::{Costs, DIRS, Dims, Node, Params, Search};
 use super::{
     MAX_GRID_POINTS, RouteError, RouteOptions, RoutePhase, RouteProgress, RouteResult, Unrouted,
 };
-use crate::model::board::{Copper, Track, Via};
+use crate::model::board::{Board, Copper, Track, Via};
 use crate::model::{Design, Layer, PartId, Point};
-use crate::rules::geometry::{Layers, Prim, dist, placed_pad};
+use crate::rules::geometry::{LayerSet, Prim, dist, placed_pad};
 
 /// A pin of a net to route.
 #[derive(Clone, Debug)]
@@ -32,7 +32,7 @@ struct Pin {
     centre: Point,
     /// The pad's copper.
     pad: Prim,
-    layers: Layers,
+    layers: LayerSet,
     /// Planar index of the grid point the pin is entered at.
     access: usize,
     /// The stub: a polyline from the pad centre to the access point (just the centre
@@ -173,21 +173,7 @@ impl<'a> Router<'a> {
     ) -> Result<Router<'a>, RouteError> {
         let board = &design.board;
         let rules = &board.rules;
-        let mut classes = vec![ClassRule {
-            width: rules.track_width,
-            clearance: rules.clearance,
-        }];
-        classes.extend(board.classes.iter().map(|c| ClassRule {
-            width: c.track_width,
-            clearance: c.clearance,
-        }));
-        let class_of = |net: usize| -> usize {
-            board.nets[net]
-                .class
-                .as_deref()
-                .and_then(|n| board.classes.iter().position(|c| c.name == n))
-                .map_or(0, |i| i + 1)
-        };
+        let classes = class_rules(board);
         let via_radius = rules.via_diameter / 2.0;
         let max_clearance = classes.iter().map(|c| c.clearance).fold(0.0, f64::max);
 
@@ -203,89 +189,22 @@ impl<'a> Router<'a> {
         }
 
         // Fixed copper: every pad of every placed part.
-        let mut pad_net = std::collections::HashMap::new();
-        for (n, pins) in design.net_pins.iter().enumerate() {
-            for p in pins {
-                pad_net.insert((p.part.0, p.pad), n as u32);
-            }
-        }
-        let mut obstacles = Vec::new();
-        for (pi, fp) in design.footprints.iter().enumerate() {
-            for k in 0..fp.pads.len() {
-                let Some(pad) = placed_pad(design, PartId(pi as u32), k) else {
-                    continue;
-                };
-                let net = pad_net.get(&(pi as u32, k as u32)).copied();
-                let hole = pad.layers == Layers::NONE;
-                obstacles.push(Obstacle {
-                    prim: pad.prim,
-                    layers: if hole { Layers::BOTH } else { pad.layers },
-                    owner: if hole { WALL } else { net.unwrap_or(WALL) },
-                    clearance: net
-                        .map_or(rules.clearance, |n| classes[class_of(n as usize)].clearance),
-                    smd_pad: pad.drill.is_none() && !is_exposed_pad(design, pi, k),
-                });
-            }
-        }
+        let obstacles = pad_obstacles(design, &classes);
         let area = obstacles
             .iter()
             .fold(board.outline.bounds(), |r, o| r.union(&o.prim.bounds()));
 
         // Nets to route, shortest first (by half-perimeter of their pins).
-        let mut nets = Vec::new();
-        for (n, pins) in design.net_pins.iter().enumerate() {
-            if pins.len() < 2 {
-                continue;
-            }
-            let mut plan = NetPlan {
-                index: n,
-                class: class_of(n),
-                pins: Vec::new(),
-                problem: None,
-            };
-            for p in pins {
-                let name = format!(
-                    "{}.{}",
-                    design.part(p.part).reference,
-                    design.footprints[p.part.index()].pads[p.pad as usize].number
-                );
-                match placed_pad(design, p.part, p.pad as usize) {
-                    Some(pad) if pad.layers != Layers::NONE => plan.pins.push(Pin {
-                        name,
-                        centre: pad.at,
-                        pad: pad.prim,
-                        layers: pad.layers,
-                        access: usize::MAX,
-                        stub: vec![pad.at],
-                    }),
-                    Some(_) => {
-                        plan.problem
-                            .get_or_insert(format!("pin {name} is an unplated hole"));
-                    }
-                    None => {
-                        plan.problem.get_or_insert(format!(
-                            "part {} is not placed",
-                            design.part(p.part).reference
-                        ));
-                    }
-                }
-            }
-            nets.push(plan);
-        }
-        let span = |p: &NetPlan| {
-            crate::model::Rect::bounding(p.pins.iter().map(|p| p.centre))
-                .map_or(0.0, |r| r.width() + r.height())
-        };
-        let mut order: Vec<usize> = (0..nets.len()).collect();
-        order.sort_by(|&a, &b| span(&nets[a]).total_cmp(&span(&nets[b])).then(a.cmp(&b)));
+        let mut nets = net_plans(design);
+        let mut order = routing_order(&nets);
 
         // Where each pin is entered, nets in routing order; stubs become fixed copper.
         let outline_vertices = board.outline.vertices();
-        let keepouts: Vec<(Vec<Point>, Layers)> = board
+        let keepouts: Vec<(Vec<Point>, LayerSet)> = board
             .keepouts
             .iter()
             .filter(|k| k.copper)
-            .map(|k| (k.shape.vertices(), Layers::from_keepout(k.layers)))
+            .map(|k| (k.shape.vertices(), LayerSet::from_keepout(k.layers)))
             .collect();
         let mut fixed = Fixed::new(
             obstacles,
@@ -298,51 +217,7 @@ impl<'a> Router<'a> {
                 max_clearance,
             },
         );
-        for &k in &order {
-            let plan = &mut nets[k];
-            if plan.problem.is_some() {
-                continue;
-            }
-            let rule = classes[plan.class];
-            for pin in &mut plan.pins {
-                let net = plan.index as u32;
-                match fixed.choose_access(&lat, &pin.pad, pin.centre, pin.layers, net, rule) {
-                    Some((i, stub)) => {
-                        pin.access = i;
-                        for w in stub.windows(2) {
-                            fixed.add(Obstacle {
-                                prim: Prim::track(w[0], w[1], rule.width),
-                                layers: pin.layers,
-                                owner: net,
-                                clearance: rule.clearance,
-                                smd_pad: false,
-                            });
-                        }
-                        pin.stub = stub;
-                    }
-                    None => {
-                        // Does the track fit at the pad centre at all, off the grid?
-                        let fits =
-                            fixed.stub_is_clear(pin.centre, pin.centre, pin.layers, net, rule);
-                        plan.problem = Some(if fits {
-                            format!(
-                                "pin {}: no point of the {} mm routing grid near the pad centre \
-                                 leaves room for a {} mm track (try a finer routing grid)",
-                                pin.name, lat.pitch, rule.width
-                            )
-                        } else {
-                            format!(
-                                "pin {}: a {} mm track with {} mm clearance does not fit at the \
-                                 pad; neighbouring copper, a keep-out or the board edge is too \
-                                 close (the net's class is too wide for this footprint)",
-                                pin.name, rule.width, rule.clearance
-                            )
-                        });
-                        break;
-                    }
-                }
-            }
-        }
+        choose_accesses(&mut fixed, &lat, &classes, &mut nets, &order);
         order.retain(|&k| nets[k].problem.is_none());
 
         let mut used = vec![false; classes.len()];
@@ -360,7 +235,7 @@ impl<'a> Router<'a> {
         for o in &fixed.obstacles {
             builder.add_copper(o);
         }
-        builder.add_region(&outline_vertices, Layers::BOTH, true, |_| {
+        builder.add_region(&outline_vertices, LayerSet::BOTH, true, |_| {
             rules.edge_clearance
         });
         for (poly, layers) in &keepouts {
@@ -985,6 +860,172 @@ impl<'a> Router<'a> {
     }
 }
 
+/// The track rule of each net class: the board's default first, then its classes.
+fn class_rules(board: &Board) -> Vec<ClassRule> {
+    let rules = &board.rules;
+    let mut classes = vec![ClassRule {
+        width: rules.track_width,
+        clearance: rules.clearance,
+    }];
+    classes.extend(board.classes.iter().map(|c| ClassRule {
+        width: c.track_width,
+        clearance: c.clearance,
+    }));
+    classes
+}
+
+/// The index into [`class_rules`] of net `net`'s class.
+fn class_of(board: &Board, net: usize) -> usize {
+    board.nets[net]
+        .class
+        .as_deref()
+        .and_then(|n| board.classes.iter().position(|c| c.name == n))
+        .map_or(0, |i| i + 1)
+}
+
+/// Fixed copper: every pad of every placed part, with its net's clearance.
+fn pad_obstacles(design: &Design, classes: &[ClassRule]) -> Vec<Obstacle> {
+    let rules = &design.board.rules;
+    let mut pad_net = std::collections::HashMap::new();
+    for (n, pins) in design.net_pins.iter().enumerate() {
+        for p in pins {
+            pad_net.insert((p.part.0, p.pad), n as u32);
+        }
+    }
+    let mut obstacles = Vec::new();
+    for (pi, fp) in design.footprints.iter().enumerate() {
+        for k in 0..fp.pads.len() {
+            let Some(pad) = placed_pad(design, PartId(pi as u32), k) else {
+                continue;
+            };
+            let net = pad_net.get(&(pi as u32, k as u32)).copied();
+            let hole = pad.layers == LayerSet::NONE;
+            obstacles.push(Obstacle {
+                prim: pad.prim,
+                layers: if hole { LayerSet::BOTH } else { pad.layers },
+                owner: if hole { WALL } else { net.unwrap_or(WALL) },
+                clearance: net.map_or(rules.clearance, |n| {
+                    classes[class_of(&design.board, n as usize)].clearance
+                }),
+                smd_pad: pad.drill.is_none() && !is_exposed_pad(design, pi, k),
+            });
+        }
+    }
+    obstacles
+}
+
+/// Every net of two or more pins, with its pins, or the problem that keeps it from being
+/// routed.
+fn net_plans(design: &Design) -> Vec<NetPlan> {
+    let mut nets = Vec::new();
+    for (n, pins) in design.net_pins.iter().enumerate() {
+        if pins.len() < 2 {
+            continue;
+        }
+        let mut plan = NetPlan {
+            index: n,
+            class: class_of(&design.board, n),
+            pins: Vec::new(),
+            problem: None,
+        };
+        for p in pins {
+            let name = format!(
+                "{}.{}",
+                design.part(p.part).reference,
+                design.footprints[p.part.index()].pads[p.pad as usize].number
+            );
+            match placed_pad(design, p.part, p.pad as usize) {
+                Some(pad) if pad.layers != LayerSet::NONE => plan.pins.push(Pin {
+                    name,
+                    centre: pad.at,
+                    pad: pad.prim,
+                    layers: pad.layers,
+                    access: usize::MAX,
+                    stub: vec![pad.at],
+                }),
+                Some(_) => {
+                    plan.problem
+                        .get_or_insert(format!("pin {name} is an unplated hole"));
+                }
+                None => {
+                    plan.problem.get_or_insert(format!(
+                        "part {} is not placed",
+                        design.part(p.part).reference
+                    ));
+                }
+            }
+        }
+        nets.push(plan);
+    }
+    nets
+}
+
+/// The nets in routing order: shortest first, by the half-perimeter of their pins.
+fn routing_order(nets: &[NetPlan]) -> Vec<usize> {
+    let span = |p: &NetPlan| {
+        crate::model::Rect::bounding(p.pins.iter().map(|p| p.centre))
+            .map_or(0.0, |r| r.width() + r.height())
+    };
+    let mut order: Vec<usize> = (0..nets.len()).collect();
+    order.sort_by(|&a, &b| span(&nets[a]).total_cmp(&span(&nets[b])).then(a.cmp(&b)));
+    order
+}
+
+/// Where each pin is entered, nets in routing order; the stubs become fixed copper. A
+/// pin with no room for its track gives its net a problem.
+fn choose_accesses(
+    fixed: &mut Fixed,
+    lat: &Lattice,
+    classes: &[ClassRule],
+    nets: &mut [NetPlan],
+    order: &[usize],
+) {
+    for &k in order {
+        let plan = &mut nets[k];
+        if plan.problem.is_some() {
+            continue;
+        }
+        let rule = classes[plan.class];
+        for pin in &mut plan.pins {
+            let net = plan.index as u32;
+            match fixed.choose_access(lat, &pin.pad, pin.centre, pin.layers, net, rule) {
+                Some((i, stub)) => {
+                    pin.access = i;
+                    for w in stub.windows(2) {
+                        fixed.add(Obstacle {
+                            prim: Prim::track(w[0], w[1], rule.width),
+                            layers: pin.layers,
+                            owner: net,
+                            clearance: rule.clearance,
+                            smd_pad: false,
+                        });
+                    }
+                    pin.stub = stub;
+                }
+                None => {
+                    // Does the track fit at the pad centre at all, off the grid?
+                    let fits = fixed.stub_is_clear(pin.centre, pin.centre, pin.layers, net, rule);
+                    plan.problem = Some(if fits {
+                        format!(
+                            "pin {}: no point of the {} mm routing grid near the pad centre \
+                         leaves room for a {} mm track (try a finer routing grid)",
+                            pin.name, lat.pitch, rule.width
+                        )
+                    } else {
+                        format!(
+                            "pin {}: a {} mm track with {} mm clearance does not fit at the \
+                         pad; neighbouring copper, a keep-out or the board edge is too \
+                         close (the net's class is too wide for this footprint)",
+                            pin.name, rule.width, rule.clearance
+                        )
+                    });
+                    break;
+                }
+            }
+        }
+    }
+}
+
 /// The cost of moving for one net (see [`super::search::Costs`]).
 struct NetCosts<'r> {
     w: usize,
@@ -1003,8 +1044,8 @@ struct NetCosts<'r> {
 
 impl Costs for NetCosts<'_> {
     #[inline]
-    fn step(&self, from: Place, to: u32, dir: usize) -> Option<f64> {
-        let Place { x, y, layer: l, .. } = from;
+    fn step(&self, from: Node, to: u32, dir: usize) -> Option<f64> {
+        let Node { x, y, layer: l, .. } = from;
         let fi = y * self.w + x;
         let (kind, at) = edge_of_step(self.w, x, y, dir);
         if !free_for(self.edges[l][kind][at], self.net) {

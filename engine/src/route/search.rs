@@ -64,9 +64,9 @@ impl Dims {
     }
 }
 
-/// A node's coordinates, handed to [`Costs`] so it need not divide to find them.
+/// A grid node's coordinates, handed to [`Costs`] so it need not divide to find them.
 #[derive(Clone, Copy, Debug)]
-pub(crate) struct Place {
+pub(crate) struct Node {
     pub x: usize,
     pub y: usize,
     pub layer: usize,
@@ -76,7 +76,7 @@ pub(crate) struct Place {
 pub(crate) trait Costs {
     /// A step on one layer from `from` to its neighbour `to` in direction `dir` (an index
     /// into [`DIRS`]); must cost at least the step's length (1 or √2), bends excluded.
-    fn step(&self, from: Place, to: u32, dir: usize) -> Option<f64>;
+    fn step(&self, from: Node, to: u32, dir: usize) -> Option<f64>;
     /// A change of layer at one grid point, from node `from` to node `to`.
     fn via(&self, from: u32, to: u32) -> Option<f64>;
 }
@@ -222,7 +222,7 @@ impl Search {
             }
             self.expanded += 1;
             let (x, y, l) = dims.xyl(node);
-            let here = Place { x, y, layer: l };
+            let here = Node { x, y, layer: l };
             let came = self.dir[n];
             for (d, &(dx, dy)) in DIRS.iter().enumerate().take(ndirs) {
                 let nx = x as i64 + dx as i64;
@@ -341,7 +341,7 @@ struct MazeCosts<'a> {
 }
 
 impl Costs for MazeCosts<'_> {
-    fn step(&self, from: Place, to: u32, dir: usize) -> Option<f64> {
+    fn step(&self, from: Node, to: u32, dir: usize) -> Option<f64> {
         if self.maze.blocked[to as usize] {
             return None;
         }
@@ -349,7 +349,7 @@ impl Costs for MazeCosts<'_> {
             return Some(1.0);
         }
         // No corner cutting: both cells beside the diagonal must be open.
-        let Place { x, y, layer: l, .. } = from;
+        let Node { x, y, layer: l, .. } = from;
         let (tx, ty, _) = self.dims.xyl(to);
         let a = self.dims.node(tx, y, l) as usize;
         let b = self.dims.node(x, ty, l) as usize;

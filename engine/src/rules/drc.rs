@@ -28,7 +28,7 @@ use std::collections::HashMap;
 
 use serde::{Deserialize, Serialize};
 
-use super::geometry::{Buckets, Layers, PlacedPad, Prim, edges, placed_pad};
+use super::geometry::{Buckets, LayerSet, PlacedPad, Prim, edges, placed_pad};
 use super::width::{
     BOARD_SPACING, DEFAULT_TEMP_RISE_C, LayerPosition, SAFETY_NOTE, clearance_for_voltage_mm,
     required_width_mm,
@@ -95,7 +95,7 @@ enum Owner {
 #[derive(Clone, Copy, Debug)]
 struct Item {
     prim: Prim,
-    layers: Layers,
+    layers: LayerSet,
     net: Option<u32>,
     owner: Owner,
 }
@@ -153,10 +153,10 @@ impl<'a> Checker<'a> {
                     continue;
                 };
                 let key = (pi as u32, k as u32);
-                if layers == Layers::NONE {
+                if layers == LayerSet::NONE {
                     items.push(Item {
                         prim,
-                        layers: Layers::BOTH,
+                        layers: LayerSet::BOTH,
                         net: None,
                         owner: Owner::Hole {
                             part: key.0,
@@ -182,7 +182,7 @@ impl<'a> Checker<'a> {
             for w in t.points.windows(2) {
                 items.push(Item {
                     prim: Prim::track(w[0], w[1], t.width),
-                    layers: Layers::of(t.layer),
+                    layers: LayerSet::of(t.layer),
                     net,
                     owner: Owner::Track(ti as u32),
                 });
@@ -191,7 +191,7 @@ impl<'a> Checker<'a> {
         for (vi, v) in board.copper.vias.iter().enumerate() {
             items.push(Item {
                 prim: Prim::disc(v.at, v.diameter / 2.0),
-                layers: Layers::BOTH,
+                layers: LayerSet::BOTH,
                 net: net_index.get(v.net.as_str()).copied(),
                 owner: Owner::Via(vi as u32),
             });
@@ -459,7 +459,7 @@ impl<'a> Checker<'a> {
             if !k.copper {
                 continue;
             }
-            let layers = Layers::from_keepout(k.layers);
+            let layers = LayerSet::from_keepout(k.layers);
             let verts = k.shape.vertices();
             let bounds = k.shape.bounds();
             let name = if k.name.is_empty() {
@@ -586,15 +586,15 @@ impl<'a> Checker<'a> {
     fn courtyards(&mut self) {
         let design = self.design;
         let board = &design.board;
-        let mut placed: Vec<(usize, Rect, Layers)> = Vec::new();
+        let mut placed: Vec<(usize, Rect, LayerSet)> = Vec::new();
         for (i, part) in board.parts.iter().enumerate() {
             let id = PartId(i as u32);
             match design.courtyard(id) {
                 Some(c) => {
                     let layers = if design.footprints[i].has_through_holes() {
-                        Layers::BOTH
+                        LayerSet::BOTH
                     } else {
-                        Layers::of_side(part.side)
+                        LayerSet::of_side(part.side)
                     };
                     placed.push((i, c, layers));
                 }
@@ -669,7 +669,7 @@ impl<'a> Checker<'a> {
                 );
             }
             for (ki, kp) in board.keepouts.iter().enumerate() {
-                if !kp.parts || !Layers::from_keepout(kp.layers).meets(layers) {
+                if !kp.parts || !LayerSet::from_keepout(kp.layers).meets(layers) {
                     continue;
                 }
                 let overlap = kp.shape.overlap_with_rect(&c);

@@ -253,51 +253,51 @@ fn crossing(a: Point, b: Point, c: Point, d: Point) -> Option<Point> {
 
 /// Copper layers as a bit set: bit 0 top, bit 1 bottom.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
-pub struct Layers(pub u8);
+pub struct LayerSet(pub u8);
 
-impl Layers {
+impl LayerSet {
     /// No copper (an unplated hole).
-    pub const NONE: Layers = Layers(0);
+    pub const NONE: LayerSet = LayerSet(0);
     /// Top copper only.
-    pub const TOP: Layers = Layers(1);
+    pub const TOP: LayerSet = LayerSet(1);
     /// Bottom copper only.
-    pub const BOTTOM: Layers = Layers(2);
+    pub const BOTTOM: LayerSet = LayerSet(2);
     /// Both (through-hole pads, vias).
-    pub const BOTH: Layers = Layers(3);
+    pub const BOTH: LayerSet = LayerSet(3);
 
     /// The one layer.
-    pub fn of(layer: Layer) -> Layers {
+    pub fn of(layer: Layer) -> LayerSet {
         match layer {
-            Layer::Top => Layers::TOP,
-            Layer::Bottom => Layers::BOTTOM,
+            Layer::Top => LayerSet::TOP,
+            Layer::Bottom => LayerSet::BOTTOM,
         }
     }
 
     /// The copper of an SMD part on `side`.
-    pub fn of_side(side: Side) -> Layers {
+    pub fn of_side(side: Side) -> LayerSet {
         match side {
-            Side::Top => Layers::TOP,
-            Side::Bottom => Layers::BOTTOM,
+            Side::Top => LayerSet::TOP,
+            Side::Bottom => LayerSet::BOTTOM,
         }
     }
 
     /// The layers a keep-out applies to.
-    pub fn from_keepout(l: crate::model::board::Layers) -> Layers {
+    pub fn from_keepout(l: crate::model::board::Layers) -> LayerSet {
         match l {
-            crate::model::board::Layers::Both => Layers::BOTH,
-            crate::model::board::Layers::Top => Layers::TOP,
-            crate::model::board::Layers::Bottom => Layers::BOTTOM,
+            crate::model::board::Layers::Both => LayerSet::BOTH,
+            crate::model::board::Layers::Top => LayerSet::TOP,
+            crate::model::board::Layers::Bottom => LayerSet::BOTTOM,
         }
     }
 
     /// Whether the two sets share a layer (so their copper can touch).
-    pub fn meets(self, o: Layers) -> bool {
+    pub fn meets(self, o: LayerSet) -> bool {
         self.0 & o.0 != 0
     }
 
     /// Whether the set holds `layer`.
     pub fn has(self, layer: Layer) -> bool {
-        self.meets(Layers::of(layer))
+        self.meets(LayerSet::of(layer))
     }
 }
 
@@ -335,8 +335,8 @@ pub struct PlacedPad {
     pub at: Point,
     /// The copper (or, for an unplated hole, the hole).
     pub prim: Prim,
-    /// Layers with copper; [`Layers::NONE`] for an unplated hole.
-    pub layers: Layers,
+    /// LayerSet with copper; [`LayerSet::NONE`] for an unplated hole.
+    pub layers: LayerSet,
     /// Drill diameter for a hole.
     pub drill: Option<f64>,
 }
@@ -344,7 +344,7 @@ pub struct PlacedPad {
 /// Where a pad of a placed part lies; `None` while the part is unplaced.
 ///
 /// An unplated hole has no copper but copper must still keep clear of it: its shape is
-/// the hole and its layers are [`Layers::NONE`]; callers treat it as a hole on both sides.
+/// the hole and its layers are [`LayerSet::NONE`]; callers treat it as a hole on both sides.
 pub fn placed_pad(design: &Design, part: PartId, pad: usize) -> Option<PlacedPad> {
     let p = design.part(part);
     let at = p.at?;
@@ -356,7 +356,7 @@ pub fn placed_pad(design: &Design, part: PartId, pad: usize) -> Option<PlacedPad
         PadKind::Smd => PlacedPad {
             at: c,
             prim: pad_prim(c, w, h, fp_pad.shape),
-            layers: Layers::of_side(p.side),
+            layers: LayerSet::of_side(p.side),
             drill: None,
         },
         PadKind::ThroughHole {
@@ -365,7 +365,7 @@ pub fn placed_pad(design: &Design, part: PartId, pad: usize) -> Option<PlacedPad
         } => PlacedPad {
             at: c,
             prim: pad_prim(c, w, h, fp_pad.shape),
-            layers: Layers::BOTH,
+            layers: LayerSet::BOTH,
             drill: Some(drill),
         },
         PadKind::ThroughHole {
@@ -374,7 +374,7 @@ pub fn placed_pad(design: &Design, part: PartId, pad: usize) -> Option<PlacedPad
         } => PlacedPad {
             at: c,
             prim: Prim::disc(c, drill / 2.0),
-            layers: Layers::NONE,
+            layers: LayerSet::NONE,
             drill: Some(drill),
         },
     })

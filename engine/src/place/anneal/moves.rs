@@ -17,12 +17,13 @@
 //!
 //! Each move's part is drawn three moves ahead and its displacement two ahead, so that
 //! on a large board the part's data can be fetched into the cache early
-//! ([`super::layout::Layout::prefetch_row`]); the draws, and so the results, are the
+//! ([`crate::place::layout::Layout::prefetch_row`]); the draws, and so the results, are the
 //! same on every machine.
 
-use super::anneal::{Annealer, round};
-use super::layout::PartMove;
+use super::Annealer;
 use crate::model::{Point, Quarter};
+use crate::place::fast::round;
+use crate::place::layout::PartMove;
 
 /// [`Ahead::part`] before the first draw.
 pub(super) const NOT_DRAWN: u32 = u32::MAX;
