@@ -1,11 +1,13 @@
-//! The engine's module structure: no two modules import each other, directly or around
-//! a loop, and no source file grows past [`MAX_LINES`].
+//! The module structure of both crates (the engine and the `lehr` binary): no two
+//! modules import each other, directly or around a loop, and no source file (engine,
+//! binary, tests, examples) grows past [`MAX_LINES`].
 //!
 //! The import graph is read from the source text: `use` paths and inline paths that
 //! start with `crate::`, `super::`, `self::` or a child module's name, each resolved to
 //! the deepest module it names (through a `pub use` re-export of a module's own file to
-//! the module that defines the item). A private submodule (`mod x;`) is an implementation
-//! file of its parent, so its uses of its ancestors do not count. Comments and
+//! the module that defines the item). A private submodule (not declared `pub mod`) is an
+//! implementation file of its parent: its imports count as its parent's, and uses within
+//! one module's family (a module and its private parts) are not edges. Comments and
 //! `#[cfg(test)] mod tests` blocks are left out.
 
 use std::collections::{BTreeMap, BTreeSet};
@@ -14,13 +16,17 @@ use std::path::{Path, PathBuf};
 use petgraph::algo::tarjan_scc;
 use petgraph::graph::DiGraph;
 
-/// Longest source file of the engine, in lines.
+/// Longest source file, in lines.
 const MAX_LINES: usize = 1_100;
 
 type Module = Vec<String>;
 
 fn engine_src() -> PathBuf {
     Path::new(env!("CARGO_MANIFEST_DIR")).join("engine/src")
+}
+
+fn binary_src() -> PathBuf {
+    Path::new(env!("CARGO_MANIFEST_DIR")).join("src")
 }
 
 /// Every `.rs` file under `dir`, with its module path (`place/layout/energy.rs` ->
@@ -43,7 +49,7 @@ fn modules(root: &Path, dir: &Path, out: &mut BTreeMap<Module, PathBuf>) {
                 .components()
                 .map(|c| c.as_os_str().to_string_lossy().into_owned())
                 .collect();
-            if matches!(m.last().map(String::as_str), Some("mod" | "lib")) {
+            if matches!(m.last().map(String::as_str), Some("mod" | "lib" | "main")) {
                 m.pop();
             }
             out.insert(m, path);
@@ -208,11 +214,19 @@ impl Crate {
                 };
                 reexports.insert((m.clone(), name), p.clone());
             }
-            for (child, public) in mod_decls(c) {
-                if !public {
-                    let mut child_path = m.clone();
-                    child_path.push(child);
-                    private.insert(child_path);
+            // A module's children are private unless declared `pub mod` (a macro may
+            // declare private ones, e.g. the schedule registry's `schedules!`).
+            let public: BTreeSet<String> = mod_decls(c)
+                .into_iter()
+                .filter(|(_, public)| *public)
+                .map(|(name, _)| name)
+                .collect();
+            for child in mods.keys() {
+                if child.len() == m.len() + 1
+                    && child.starts_with(m)
+                    && !public.contains(child.last().expect("a child has a name"))
+                {
+                    private.insert(child.clone());
                 }
             }
         }
@@ -241,8 +255,17 @@ impl Crate {
         Some(module)
     }
 
+    /// The nearest module at or above `m` that is not a private submodule.
+    fn owner(&self, m: &Module) -> Module {
+        let mut m = m.clone();
+        while self.private.contains(&m) && m.len() > 1 {
+            m.pop();
+        }
+        m
+    }
+
     fn edges(&self) -> BTreeMap<Module, BTreeSet<Module>> {
-        let mut edges = BTreeMap::new();
+        let mut edges: BTreeMap<Module, BTreeSet<Module>> = BTreeMap::new();
         for (m, c) in &self.code {
             let mut to = BTreeSet::new();
             for p in uses(c, "use ").into_iter().chain(inline_paths(c)) {
@@ -252,12 +275,15 @@ impl Crate {
                 let Some(t) = self.target(&abs, 0) else {
                     continue;
                 };
-                let ancestor = self.private.contains(m) && m.starts_with(&t);
-                if t != *m && !ancestor {
+                // A private submodule is part of its parent: edges leave from and land
+                // on the public module that owns it, and uses inside one module's
+                // family (between a module and its private parts) are not edges.
+                let (from, t) = (self.owner(m), self.owner(&t));
+                if from != t && !from.starts_with(&t) && !t.starts_with(&from) {
                     to.insert(t);
                 }
             }
-            edges.insert(m.clone(), to);
+            edges.entry(self.owner(m)).or_default().extend(to);
         }
         edges
     }
@@ -293,9 +319,10 @@ fn name(m: &Module) -> String {
     }
 }
 
-#[test]
-fn engine_modules_import_no_loop() {
-    let krate = Crate::read(&engine_src());
+/// The loops among a crate's modules, each as its modules' names; panics when fewer than
+/// `min_edges` imports were read (the reader would then be broken, not the crate sound).
+fn loops(root: &Path, min_edges: usize) -> Vec<String> {
+    let krate = Crate::read(root);
     let edges = krate.edges();
     let mut graph = DiGraph::<Module, ()>::new();
     let index: BTreeMap<Module, _> = edges
@@ -310,10 +337,11 @@ fn engine_modules_import_no_loop() {
         }
     }
     assert!(
-        edges.values().map(BTreeSet::len).sum::<usize>() > 100,
-        "the import graph was not read"
+        edges.values().map(BTreeSet::len).sum::<usize>() > min_edges,
+        "the import graph of {} was not read",
+        root.display()
     );
-    let loops: Vec<String> = tarjan_scc(&graph)
+    tarjan_scc(&graph)
         .into_iter()
         .filter(|c| c.len() > 1)
         .map(|c| {
@@ -321,20 +349,39 @@ fn engine_modules_import_no_loop() {
             names.sort();
             names.join(", ")
         })
-        .collect();
+        .collect()
+}
+
+#[test]
+fn engine_modules_import_no_loop() {
+    let loops = loops(&engine_src(), 100);
     assert!(
         loops.is_empty(),
-        "modules that import each other: {loops:#?}"
+        "engine modules that import each other: {loops:#?}"
     );
 }
 
 #[test]
-fn engine_files_stay_short() {
-    let mut mods = BTreeMap::new();
-    let root = engine_src();
-    modules(&root, &root, &mut mods);
-    let long: Vec<String> = mods
-        .values()
+fn binary_modules_import_no_loop() {
+    let loops = loops(&binary_src(), 2);
+    assert!(
+        loops.is_empty(),
+        "binary modules that import each other: {loops:#?}"
+    );
+}
+
+#[test]
+fn source_files_stay_short() {
+    let top = Path::new(env!("CARGO_MANIFEST_DIR"));
+    let mut files = Vec::new();
+    for dir in ["engine/src", "src", "tests", "examples"] {
+        let (root, mut mods) = (top.join(dir), BTreeMap::new());
+        modules(&root, &root, &mut mods);
+        files.extend(mods.into_values());
+    }
+    assert!(files.len() > 100, "the source files were not found");
+    let long: Vec<String> = files
+        .iter()
         .filter_map(|p| {
             let n = std::fs::read_to_string(p).unwrap().lines().count();
             (n > MAX_LINES).then(|| format!("{} ({n} lines)", p.display()))
