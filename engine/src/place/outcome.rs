@@ -32,6 +32,7 @@ pub struct PlaceReport {
     pub seconds: f64,
     pub moves_per_second: f64,
     pub seed: u64,
+    /// The schedule with any parameters set by hand (`geometric alpha=0.95`).
     pub schedule: String,
     /// Where the kept result started: `given` or `spectral` ([`Start`]).
     #[serde(default)]
@@ -129,7 +130,7 @@ pub fn finish(design: &Design, an: &mut Annealer, start: Instant) -> Result<Plac
         seconds,
         moves_per_second: an.moves() as f64 / seconds.max(1e-9),
         seed: an.options().seed,
-        schedule: an.options().schedule.name().to_string(),
+        schedule: an.options().schedule.to_string(),
         // A caller that started elsewhere (the analytical start) says so.
         start: Start::Given.name().to_string(),
         replicas: 1,
