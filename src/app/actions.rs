@@ -193,7 +193,7 @@ impl LehrApp {
                 })
                 .fold(6.0, f64::max)
                 .min(60.0);
-            self.canvas.show(at, span * 1.2, parts);
+            self.canvas.zoom_to(at, span * 1.2, parts);
         }
     }
 

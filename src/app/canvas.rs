@@ -164,7 +164,7 @@ impl Canvas {
 
     /// Centres the view on `at`, zoomed so that about `span` mm fit across, and marks
     /// it (with `parts`' courtyards).
-    pub fn show(&mut self, at: Point, span: f64, parts: Vec<u32>) {
+    pub fn zoom_to(&mut self, at: Point, span: f64, parts: Vec<u32>) {
         let size = self.last_size.unwrap_or(Vec2::new(800.0, 600.0));
         self.fit_pending = false;
         self.center = at;

@@ -315,11 +315,17 @@ impl Controls {
                         let _ = s.schedule.set(i, Some(v));
                     }
                 } else if let Some(n) = shown {
-                    ui.small(format!(
-                        "{} (set by the move budget, {} moves)",
-                        sig(n.schedule_parameter),
-                        big(n.budget as f64)
-                    ));
+                    // The schedule derives it at its first step; before, say where it
+                    // will come from rather than show a zero.
+                    ui.small(if n.schedule_parameter > 0.0 {
+                        format!(
+                            "{} (set by the move budget, {} moves)",
+                            sig(n.schedule_parameter),
+                            big(n.budget as f64)
+                        )
+                    } else {
+                        format!("set by the move budget ({} moves)", big(n.budget as f64))
+                    });
                 } else {
                     ui.small(p.default);
                 }
