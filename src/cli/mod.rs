@@ -9,6 +9,7 @@ mod import;
 mod open;
 mod place;
 mod route;
+mod sweep;
 mod width;
 
 use std::path::{Path, PathBuf};
@@ -53,6 +54,9 @@ pub(crate) enum Command {
     Import(import::ImportArgs),
     /// Write pictures and fabrication files (Gerber, NC drill, centroid) of a board.
     Export(export::ExportArgs),
+    /// Compare cooling schedules: schedules x parameter values x starts x seeds over
+    /// boards, each run at the same move budget, on every core; CSV tables and pictures.
+    Sweep(sweep::SweepArgs),
 }
 
 /// Parses the command line and runs the command.
@@ -68,6 +72,7 @@ pub fn run() -> Result<ExitCode> {
         Some(Command::Width(a)) => width::run(a),
         Some(Command::Import(a)) => import::run(a),
         Some(Command::Export(a)) => export::run(a),
+        Some(Command::Sweep(a)) => sweep::run(a),
     }
 }
 

@@ -21,3 +21,4 @@ mod rules;
 mod samples;
 /// The engine's module structure: no import loops, no overlong files.
 mod structure;
+mod sweep;

@@ -27,6 +27,7 @@ pub mod replicas;
 pub mod rng;
 pub mod schedule;
 pub mod spectral;
+pub mod sweep;
 
 use std::time::Instant;
 
