@@ -392,6 +392,30 @@ fn register_font() {
 
 type DrawResult = std::result::Result<(), Box<dyn std::error::Error>>;
 
+/// Draws a picture into memory (`draw` gets an SVG string or an RGB buffer, by the
+/// path's extension) and writes it atomically like every file lehr writes.
+fn save(
+    path: &Path,
+    draw: impl FnOnce(Option<&mut String>, Option<&mut [u8]>) -> DrawResult,
+) -> DrawResult {
+    let bytes = if path.extension().is_some_and(|e| e == "svg") {
+        let mut text = String::new();
+        draw(Some(&mut text), None)?;
+        text.into_bytes()
+    } else {
+        let (w, h) = SIZE;
+        let mut rgb = vec![0u8; (w * h * 3) as usize];
+        draw(None, Some(&mut rgb))?;
+        let mut pm = tiny_skia::Pixmap::new(w, h).ok_or("empty picture")?;
+        for (px, c) in pm.data_mut().chunks_exact_mut(4).zip(rgb.chunks_exact(3)) {
+            px.copy_from_slice(&[c[0], c[1], c[2], 255]);
+        }
+        pm.encode_png()?
+    };
+    lehr_engine::io::write_file(path, &bytes)?;
+    Ok(())
+}
+
 const SIZE: (u32, u32) = (960, 600);
 
 fn box_plot(
@@ -415,23 +439,23 @@ fn box_plot(
     let hi = all.iter().copied().fold(f64::NEG_INFINITY, f64::max);
     let pad = ((hi - lo) * 0.1).max(hi.abs() * 0.01).max(1e-6);
     let (y0, y1) = ((lo - pad) as f32, (hi + pad) as f32);
-    if path.extension().is_some_and(|e| e == "svg") {
-        box_plot_on(
-            SVGBackend::new(path, SIZE).into_drawing_area(),
+    save(path, |svg, rgb| match (svg, rgb) {
+        (Some(text), _) => box_plot_on(
+            SVGBackend::with_string(text, SIZE).into_drawing_area(),
             name,
             labels,
             &values,
             (y0, y1),
-        )
-    } else {
-        box_plot_on(
-            BitMapBackend::new(path, SIZE).into_drawing_area(),
+        ),
+        (_, Some(px)) => box_plot_on(
+            BitMapBackend::with_buffer(px, SIZE).into_drawing_area(),
             name,
             labels,
             &values,
             (y0, y1),
-        )
-    }
+        ),
+        _ => Ok(()),
+    })
 }
 
 fn box_plot_on<DB: plotters::prelude::DrawingBackend>(
@@ -510,23 +534,23 @@ fn best_plot(
     }
     let pad = ((hi - lo) * 0.05).max(1e-6);
     let range = (x1 as f64, lo - pad, hi + pad);
-    if path.extension().is_some_and(|e| e == "svg") {
-        best_plot_on(
-            SVGBackend::new(path, SIZE).into_drawing_area(),
+    save(path, |svg, rgb| match (svg, rgb) {
+        (Some(text), _) => best_plot_on(
+            SVGBackend::with_string(text, SIZE).into_drawing_area(),
             name,
             labels,
             runs,
             range,
-        )
-    } else {
-        best_plot_on(
-            BitMapBackend::new(path, SIZE).into_drawing_area(),
+        ),
+        (_, Some(px)) => best_plot_on(
+            BitMapBackend::with_buffer(px, SIZE).into_drawing_area(),
             name,
             labels,
             runs,
             range,
-        )
-    }
+        ),
+        _ => Ok(()),
+    })
 }
 
 fn best_plot_on<DB: plotters::prelude::DrawingBackend>(
