@@ -504,7 +504,11 @@ fn a_netlist_imports_and_the_board_exports_fabrication_files() {
         .push(Action::ExportFab(Some(dir.path().to_path_buf())));
     h.run_steps(3);
     h.get_by_label_contains("design rules are broken: export anyway?");
-    let ask = h.state().export_confirm.clone().expect("the question is up");
+    let ask = h
+        .state()
+        .export_confirm
+        .clone()
+        .expect("the question is up");
     // The first broken rules are listed, one line each, as `lehr check` prints them.
     h.get_by_label(&ask.first[0]);
     h.get_by_label("Cancel").click();
