@@ -13,18 +13,18 @@ fn sample() -> PathBuf {
     Path::new(env!("CARGO_MANIFEST_DIR")).join("sample-boards/led-dimmer.board.ron")
 }
 
-/// Runs `lehr ARGS` with its standard output a pipe whose reading end is closed at once
-/// (as `lehr ... | head -c 0` would): no panic, nothing on standard error, code 141.
+/// Runs `lehr ARGS` with its standard output a pipe whose reading end is closed before
+/// it starts (as `lehr ... | head -c 0` would, at its earliest): no panic, code 141.
 fn with_closed_stdout(args: &[&str], dir: &Path) {
-    let mut child = lehr()
+    let (reader, writer) = std::io::pipe().unwrap();
+    drop(reader);
+    let out = lehr()
         .args(args)
         .current_dir(dir)
-        .stdout(Stdio::piped())
+        .stdout(writer)
         .stderr(Stdio::piped())
-        .spawn()
+        .output()
         .unwrap();
-    drop(child.stdout.take());
-    let out = child.wait_with_output().unwrap();
     let err = String::from_utf8_lossy(&out.stderr);
     assert!(!err.contains("panicked"), "{args:?}: {err}");
     assert_eq!(out.status.code(), Some(141), "{args:?}: {err}");
