@@ -177,17 +177,70 @@ impl LehrApp {
         }
     }
 
-    /// Writes the Gerber files, the drill program, the centroid list and an SVG picture
-    /// of the board as it stands into `dir`; returns what to tell the user.
-    fn export_fab(&self, dir: &Path) -> Result<String> {
-        let design = lehr_engine::model::resolve(self.current_board()).map_err(|ps| {
+    /// The board as it stands, checked as a design, for the fabrication files.
+    fn fab_design(&self) -> Result<Design> {
+        lehr_engine::model::resolve(self.current_board()).map_err(|ps| {
             anyhow!(
                 "the board is not valid as placed: {}",
                 lehr_engine::model::problems_line(&ps)
             )
-        })?;
+        })
+    }
+
+    /// The export set of the board into `dir`: the file name stem and where each goes.
+    fn fab_targets(&self, dir: &Path) -> (String, export_set::Targets) {
         let stem = export_set::file_stem(Path::new(&format!("{}.board.ron", self.doc.name)));
         let targets = export_set::Targets::all_in(dir, &stem);
+        (stem, targets)
+    }
+
+    /// File > Export fabrication files into `dir`: written at once when the board keeps
+    /// every design rule, else the user is asked first ([`Self::export_confirm_ui`]).
+    fn export_fab_checked(&mut self, dir: &Path) {
+        let broken = self.fab_design().map(|design| {
+            let (_, targets) = self.fab_targets(dir);
+            export_set::violations(&design, &targets)
+        });
+        match broken {
+            Ok(v) if !v.is_empty() => {
+                self.export_confirm = Some(ExportConfirm {
+                    dir: dir.to_path_buf(),
+                    count: v.len(),
+                    first: v
+                        .iter()
+                        .take(ExportConfirm::SHOWN)
+                        .map(export_set::violation_line)
+                        .collect(),
+                });
+            }
+            _ => self.export_fab_now(dir, 0),
+        }
+    }
+
+    /// Writes the fabrication files and tells the user how it went; `broken` design rules
+    /// the user agreed to export with.
+    fn export_fab_now(&mut self, dir: &Path, broken: usize) {
+        self.message = Some(match self.export_fab(dir) {
+            Ok(mut text) => {
+                if broken > 0 {
+                    text.push_str(&format!(
+                        " {broken} design rules are broken: exported anyway as asked."
+                    ));
+                }
+                Message { error: false, text }
+            }
+            Err(e) => Message {
+                error: true,
+                text: format!("Could not export: {e:#}"),
+            },
+        });
+    }
+
+    /// Writes the Gerber files, the drill program, the centroid list and an SVG picture
+    /// of the board as it stands into `dir`; returns what to tell the user.
+    fn export_fab(&self, dir: &Path) -> Result<String> {
+        let design = self.fab_design()?;
+        let (stem, targets) = self.fab_targets(dir);
         let files = export_set::build_files(
             &design,
             &stem,
@@ -202,6 +255,52 @@ impl LehrApp {
             text.push('.');
         }
         Ok(text)
+    }
+
+    /// The question before fabrication files of a board that breaks design rules go out.
+    pub(super) fn export_confirm_ui(&mut self, ctx: &egui::Context) {
+        let Some(ask) = self.export_confirm.clone() else {
+            return;
+        };
+        let mut answer = None;
+        let modal = egui::Modal::new(egui::Id::unique("export-broken-rules")).show(ctx, |ui| {
+            ui.heading("Design rules broken");
+            ui.label(format!(
+                "{} design rules are broken: export anyway?",
+                ask.count
+            ));
+            for line in &ask.first {
+                ui.label(line);
+            }
+            if ask.count > ask.first.len() {
+                ui.label(format!("... and {} more", ask.count - ask.first.len()));
+            }
+            ui.horizontal(|ui| {
+                if ui.button("Export anyway").clicked() {
+                    answer = Some(true);
+                }
+                if ui.button("Cancel").clicked() {
+                    answer = Some(false);
+                }
+            });
+        });
+        if modal.should_close() && answer.is_none() {
+            answer = Some(false);
+        }
+        match answer {
+            Some(true) => {
+                self.export_confirm = None;
+                self.export_fab_now(&ask.dir, ask.count);
+            }
+            Some(false) => {
+                self.export_confirm = None;
+                self.message = Some(Message {
+                    error: false,
+                    text: "Export cancelled: nothing written.".into(),
+                });
+            }
+            None => {}
+        }
     }
 
     fn folder(&self) -> Option<PathBuf> {
@@ -246,15 +345,7 @@ impl LehrApp {
                 Some(p) => self.import_netlist(&p),
                 None => self.no_dialog(),
             },
-            Action::ExportFab(Some(dir)) => {
-                self.message = Some(match self.export_fab(&dir) {
-                    Ok(text) => Message { error: false, text },
-                    Err(e) => Message {
-                        error: true,
-                        text: format!("Could not export: {e:#}"),
-                    },
-                });
-            }
+            Action::ExportFab(Some(dir)) => self.export_fab_checked(&dir),
             Action::ExportFab(None) => match files::pick_folder(self.folder().as_deref()) {
                 Some(d) => self.apply_file(Action::ExportFab(Some(d)), ctx),
                 None => self.no_dialog(),
@@ -283,4 +374,20 @@ impl LehrApp {
             text: "No file chosen. (If no dialog appeared, this desktop has no file-dialog service: open a board with `lehr open FILE` or drop it on the window.)".into(),
         });
     }
+}
+
+/// Fabrication files waiting for the user's answer: the board breaks design rules.
+#[derive(Clone, Debug)]
+pub(super) struct ExportConfirm {
+    /// Where the files go.
+    pub(super) dir: PathBuf,
+    /// How many rules are broken.
+    pub(super) count: usize,
+    /// The first few, one line each.
+    pub(super) first: Vec<String>,
+}
+
+impl ExportConfirm {
+    /// How many broken rules the question lists.
+    const SHOWN: usize = 8;
 }

@@ -179,6 +179,9 @@ pub struct LehrApp {
     message: Option<Message>,
     /// An action waiting for the user to agree to discard unsaved changes.
     confirm: Option<Action>,
+    /// Fabrication files waiting for the user to agree to export a board that breaks
+    /// design rules.
+    export_confirm: Option<document::ExportConfirm>,
     caution: Option<String>,
     /// Keep polling the engine until then (an answer to a command is on its way).
     expect_until: Instant,
@@ -231,6 +234,7 @@ impl LehrApp {
             actions: Vec::new(),
             message: None,
             confirm: None,
+            export_confirm: None,
             expect_until: Instant::now() + Duration::from_secs(2),
             finishing: false,
             title: String::new(),
@@ -353,6 +357,7 @@ impl LehrApp {
         self.banners_ui(ui, dark);
         self.panels_ui(ui, &pal);
         self.confirm_ui(&ctx);
+        self.export_confirm_ui(&ctx);
         for a in std::mem::take(&mut self.actions) {
             self.apply(a, &ctx);
         }

@@ -473,8 +473,9 @@ fn the_rule_panel_lists_a_broken_board_and_shows_where() {
 
 /// File > Import netlist: the invented demo connection list (with its parts table beside
 /// it) becomes a new, unsaved board of its 15 parts and 9 nets; File > Export
-/// fabrication files then writes the Gerber set, the drill program, the centroid list and
-/// the picture into one folder. A broken netlist shows its file, line and column.
+/// fabrication files asks first (its nets are not routed: design rules are broken), then
+/// writes the Gerber set, the drill program, the centroid list and the picture into one
+/// folder. A broken netlist shows its file, line and column.
 #[test]
 fn a_netlist_imports_and_the_board_exports_fabrication_files() {
     let netlists = Path::new(env!("CARGO_MANIFEST_DIR")).join("sample-boards/netlists");
@@ -497,12 +498,34 @@ fn a_netlist_imports_and_the_board_exports_fabrication_files() {
         a.snapshot().is_some()
     });
     let dir = tempfile::tempdir().unwrap();
+    // The board is not routed: the export asks first, and Cancel writes nothing.
     h.state_mut()
         .actions
         .push(Action::ExportFab(Some(dir.path().to_path_buf())));
-    h.step();
+    h.run_steps(3);
+    h.get_by_label_contains("design rules are broken: export anyway?");
+    let ask = h
+        .state()
+        .export_confirm
+        .clone()
+        .expect("the question is up");
+    // The first broken rules are listed, one line each, as `lehr check` prints them.
+    h.get_by_label(&ask.first[0]);
+    h.get_by_label("Cancel").click();
+    h.run_steps(2);
+    assert!(h.state().export_confirm.is_none());
+    assert_eq!(std::fs::read_dir(dir.path()).unwrap().count(), 0);
+    // Asked again and agreed: the files are written.
+    h.state_mut()
+        .actions
+        .push(Action::ExportFab(Some(dir.path().to_path_buf())));
+    h.run_steps(3);
+    h.get_by_label("Export anyway").click();
+    h.run_steps(2);
+    assert!(h.state().export_confirm.is_none());
     let m = h.state().message.as_ref().expect("the export reports");
     assert!(!m.error, "{}", m.text);
+    assert!(m.text.contains("exported anyway"), "{}", m.text);
     let mut names: Vec<String> = std::fs::read_dir(dir.path())
         .unwrap()
         .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())

@@ -16,6 +16,8 @@ use lehr_engine::place::{
 };
 use lehr_engine::route::{RouteOptions, RouteResult};
 
+use super::print::outln;
+
 #[derive(Args, Debug)]
 pub struct BenchArgs {
     /// Print one JSON object.
@@ -35,7 +37,7 @@ struct Out {
 impl Out {
     fn say(&self, s: String) {
         if !self.json {
-            println!("{s}");
+            outln!("{s}");
         }
     }
 
@@ -59,7 +61,7 @@ pub fn run(args: &BenchArgs) -> Result<ExitCode> {
     scale(args, &mut out)?;
     route_samples(args, &mut out)?;
     if args.json {
-        println!("{}", Value::Object(out.map));
+        outln!("{}", Value::Object(out.map));
     }
     Ok(ExitCode::SUCCESS)
 }
@@ -430,13 +432,18 @@ fn route_samples(args: &BenchArgs, out: &mut Out) -> Result<()> {
             }
             let (r, violations) = route_and_check(placed.board)?;
             if !args.json {
-                println!(
+                outln!(
                     "route {name}, seed {seed}: {} of {} nets, {} vias, {:.0} mm, {} passes, \
                      {:.2} s, {violations} violations",
-                    r.routed, r.nets, r.vias, r.track_length_mm, r.passes, r.seconds
+                    r.routed,
+                    r.nets,
+                    r.vias,
+                    r.track_length_mm,
+                    r.passes,
+                    r.seconds
                 );
                 for u in &r.unrouted {
-                    println!("    not routed: {}: {}", u.net, u.why);
+                    outln!("    not routed: {}: {}", u.net, u.why);
                 }
             }
             worst_seconds = worst_seconds.max(r.seconds);

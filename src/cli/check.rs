@@ -9,6 +9,10 @@ use serde_json::json;
 
 use lehr_engine::rules::{self, width};
 
+use crate::shared::export_set::violation_line;
+
+use super::print::outln;
+
 #[derive(Args, Debug)]
 pub struct CheckArgs {
     /// The board file to check.
@@ -22,16 +26,13 @@ pub fn run(a: CheckArgs) -> Result<ExitCode> {
     let design = lehr_engine::io::load_board(&a.board)?;
     let items = rules::check(&design);
     if a.json {
-        println!("{}", json!({ "violations": items.len(), "items": items }));
+        outln!("{}", json!({ "violations": items.len(), "items": items }));
     } else if items.is_empty() {
-        println!("{}: no violations", a.board.display());
+        outln!("{}: no violations", a.board.display());
     } else {
-        println!("{}: {} violations", a.board.display(), items.len());
+        outln!("{}: {} violations", a.board.display(), items.len());
         for v in &items {
-            match v.at {
-                Some(p) => println!("  ({:.3}, {:.3}) {:?}: {}", p.x, p.y, v.kind, v.message),
-                None => println!("  {:?}: {}", v.kind, v.message),
-            }
+            outln!("  {}", violation_line(v));
         }
     }
     let high_voltage = design
@@ -40,11 +41,7 @@ pub fn run(a: CheckArgs) -> Result<ExitCode> {
         .iter()
         .any(|c| c.voltage.is_some_and(|v| v > 30.0));
     if high_voltage && !a.json {
-        println!("caution: {}", width::SAFETY_NOTE);
+        outln!("caution: {}", width::SAFETY_NOTE);
     }
-    Ok(if items.is_empty() {
-        ExitCode::SUCCESS
-    } else {
-        ExitCode::from(2)
-    })
+    Ok(super::ok_or_problems(items.is_empty()))
 }

@@ -8,11 +8,17 @@ use std::process::ExitCode;
 
 use anyhow::{Result, bail};
 use clap::Args;
-use serde_json::json;
+use serde_json::{Value, json};
 
 use lehr_engine::fab::{self, FabOptions};
 
-use crate::shared::export_set::{Targets, build_files, file_stem, write_files};
+use crate::shared::export_set::{
+    self, Targets, build_files, file_stem, violation_line, write_files,
+};
+
+use super::paths;
+
+use super::print::outln;
 
 #[derive(Args, Debug)]
 pub struct ExportArgs {
@@ -37,7 +43,13 @@ pub struct ExportArgs {
     /// Solder mask opening beyond each pad, per side, mm.
     #[arg(long, default_value_t = fab::DEFAULT_MASK_EXPANSION, value_name = "MM")]
     pub mask_expansion: f64,
-    /// Print one JSON object: the files written and the warnings.
+    /// Write the files even when design rules are broken (by default the export is
+    /// refused with exit code 3 and the broken rules listed; unrouted nets count for the
+    /// Gerber files, and the centroid list alone is never refused).
+    #[arg(long)]
+    pub allow_violations: bool,
+    /// Print one JSON object: the files written, the warnings, `violations` (a count),
+    /// `violation_items` (the broken rules) and `refused`.
     #[arg(long)]
     pub json: bool,
 }
@@ -68,12 +80,56 @@ impl ExportArgs {
 
 pub fn run(a: ExportArgs) -> Result<ExitCode> {
     let targets = a.targets()?;
+    // Before any work: every path asked for can be written.
+    for p in [
+        &targets.svg,
+        &targets.png,
+        &targets.drill,
+        &targets.centroid,
+    ]
+    .into_iter()
+    .flatten()
+    {
+        paths::output_file(p)?;
+    }
+    if let Some(dir) = &targets.gerber {
+        paths::output_folder(dir)?;
+    }
     let design = lehr_engine::io::load_board(&a.board)?;
     let opts = FabOptions {
         mask_expansion: a.mask_expansion,
         ..FabOptions::default()
     };
     opts.check()?;
+
+    // The design rules first: a board that breaks them is not sent out unless asked.
+    let violations = export_set::violations(&design, &targets);
+    let items: Vec<Value> = violations
+        .iter()
+        .map(|v| serde_json::to_value(v).unwrap_or(Value::Null))
+        .collect();
+    if !violations.is_empty() && !a.allow_violations {
+        if a.json {
+            outln!(
+                "{}",
+                json!({
+                    "written": [],
+                    "violations": violations.len(),
+                    "violation_items": items,
+                    "refused": true,
+                })
+            );
+        } else {
+            eprintln!(
+                "lehr: export refused: {} design rules are broken (--allow-violations writes the files anyway):",
+                violations.len()
+            );
+            for v in &violations {
+                eprintln!("  {}", violation_line(v));
+            }
+        }
+        return Ok(ExitCode::from(super::PROBLEMS));
+    }
 
     // Make every file's contents first: an error then writes nothing at all.
     let files = build_files(&design, &file_stem(&a.board), &targets, &opts)?;
@@ -82,6 +138,15 @@ pub fn run(a: ExportArgs) -> Result<ExitCode> {
     // Hazardous voltages or high currents: the usual caution, before the files go out.
     let caution = lehr_engine::drawing::caution::caution(&design);
     if !a.json {
+        if !violations.is_empty() {
+            eprintln!(
+                "lehr: warning: {} design rules are broken; exporting anyway as asked:",
+                violations.len()
+            );
+            for v in &violations {
+                eprintln!("  {}", violation_line(v));
+            }
+        }
         for w in &warnings {
             eprintln!("lehr: warning: {w}");
         }
@@ -91,17 +156,20 @@ pub fn run(a: ExportArgs) -> Result<ExitCode> {
     }
     write_files(&targets, &files)?;
     if a.json {
-        println!(
+        outln!(
             "{}",
             json!({
                 "written": files.iter().map(|(p, _)| p.display().to_string()).collect::<Vec<_>>(),
                 "warnings": warnings,
                 "caution": caution,
+                "violations": violations.len(),
+                "violation_items": items,
+                "refused": false,
             })
         );
     } else {
         for (p, _) in &files {
-            println!("wrote {}", p.display());
+            outln!("wrote {}", p.display());
         }
     }
     Ok(ExitCode::SUCCESS)

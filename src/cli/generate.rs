@@ -11,6 +11,8 @@ use serde_json::json;
 use lehr_engine::model::Board;
 use lehr_engine::place::generate;
 
+use super::print::outln;
+
 #[derive(Subcommand, Debug)]
 pub enum GenerateCommand {
     /// Square parts in rows and columns with a two-pin net between grid neighbours;
@@ -161,16 +163,16 @@ pub fn run(g: GenerateCommand) -> Result<ExitCode> {
         if let Some(o) = optimum {
             v["optimal_wirelength_mm"] = json!(o);
         }
-        println!("{v}");
+        outln!("{v}");
     } else {
-        println!(
+        outln!(
             "wrote {} ({} parts, {} nets)",
             out.display(),
             board.parts.len(),
             board.nets.len()
         );
         if let Some(o) = optimum {
-            println!("optimal wirelength {o} mm");
+            outln!("optimal wirelength {o} mm");
         }
     }
     Ok(ExitCode::SUCCESS)

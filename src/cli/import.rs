@@ -10,6 +10,8 @@ use serde_json::json;
 
 use lehr_engine::io::{Format, ImportFiles, ImportOptions, OutlineSize, import_file};
 
+use super::print::outln;
+
 #[derive(Args, Debug)]
 pub struct ImportArgs {
     /// The netlist: a connection list (.csv, .tsv, .txt) or an EDIF 2 0 0 file (.edif,
@@ -34,6 +36,8 @@ pub struct ImportArgs {
 }
 
 pub fn run(a: ImportArgs) -> Result<ExitCode> {
+    // Before the import: a path that cannot be written fails now, not after it.
+    super::paths::output_file(&a.out)?;
     let files = ImportFiles {
         netlist: &a.file,
         parts: a.parts.as_deref(),
@@ -66,12 +70,12 @@ pub fn run(a: ImportArgs) -> Result<ExitCode> {
             "warnings": imported.warnings.iter().map(|w| w.to_string()).collect::<Vec<_>>(),
             "out": a.out.display().to_string(),
         });
-        println!("{v}");
+        outln!("{v}");
     } else {
         for w in &imported.warnings {
             eprintln!("warning: {w}");
         }
-        println!(
+        outln!(
             "imported {} ({format_name}): {} parts, {} nets, outline {} x {} mm",
             a.file.display(),
             board.parts.len(),
@@ -79,7 +83,7 @@ pub fn run(a: ImportArgs) -> Result<ExitCode> {
             bounds.width(),
             bounds.height()
         );
-        println!("wrote {}", a.out.display());
+        outln!("wrote {}", a.out.display());
     }
     Ok(ExitCode::SUCCESS)
 }

@@ -7,7 +7,9 @@ mod export;
 mod generate;
 mod import;
 mod open;
+mod paths;
 mod place;
+pub(crate) mod print;
 mod route;
 mod sweep;
 mod width;
@@ -57,6 +59,23 @@ pub(crate) enum Command {
     /// Compare cooling schedules: schedules x parameter values x starts x seeds over
     /// boards, each run at the same move budget, on every core; CSV tables and pictures.
     Sweep(sweep::SweepArgs),
+}
+
+/// Exit code: the command ran, but its result has problems (conflicts remain after
+/// placing, nets stay unrouted, design rules are broken, an export was refused).
+pub const PROBLEMS: u8 = 3;
+/// Exit code when standard output was closed before everything was printed (a reader
+/// such as `head` that stopped early): 128 + 13, the code shells give a writer ended by
+/// a broken pipe. Nothing is printed about it.
+pub const CLOSED_OUTPUT: u8 = 141;
+
+/// [`ExitCode::SUCCESS`] when `ok`, else [`PROBLEMS`].
+pub fn ok_or_problems(ok: bool) -> ExitCode {
+    if ok {
+        ExitCode::SUCCESS
+    } else {
+        ExitCode::from(PROBLEMS)
+    }
 }
 
 /// Parses the command line and runs the command.

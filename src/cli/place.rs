@@ -14,6 +14,8 @@ use serde_json::{Value, json};
 use lehr_engine::model::Design;
 use lehr_engine::place::{self, AnnealOptions, Placed, Schedule, StageReport, Start};
 
+use super::print::outln;
+
 #[derive(Args, Debug)]
 pub struct PlaceArgs {
     /// The board file (RON, see docs/board-format.md).
@@ -136,6 +138,11 @@ pub fn run(a: PlaceArgs) -> Result<ExitCode> {
         .out
         .clone()
         .unwrap_or_else(|| super::with_suffix(&a.board, "placed"));
+    // Before the annealing: a path that cannot be written fails now, not after it.
+    super::paths::output_file(&out)?;
+    if let Some(log) = &a.log {
+        super::paths::output_file(log)?;
+    }
     if !a.json {
         eprintln!(
             "placing {} ({} parts, {} nets) with {}, seed {}",
@@ -156,15 +163,11 @@ pub fn run(a: PlaceArgs) -> Result<ExitCode> {
         )?;
     }
     if a.json {
-        println!("{}", report_json(&placed, &out, optimum));
+        outln!("{}", report_json(&placed, &out, optimum));
     } else {
         print_report(&placed, Some(&out), optimum);
     }
-    Ok(if placed.report.legal {
-        ExitCode::SUCCESS
-    } else {
-        ExitCode::from(2)
-    })
+    Ok(super::ok_or_problems(placed.report.legal))
 }
 
 impl PlaceArgs {
@@ -252,30 +255,40 @@ fn run_place(design: &Design, opts: &AnnealOptions, progress: bool) -> Result<Pl
 
 fn print_report(placed: &Placed, out: Option<&Path>, optimum: Option<f64>) {
     let r = &placed.report;
-    println!(
+    outln!(
         "{} schedule, seed {}, {} chain(s) per start: {} moves ({} accepted) in {:.2} s, {:.0} moves/s; kept the run from the {} start",
-        r.schedule, r.seed, r.replicas, r.moves, r.accepted, r.seconds, r.moves_per_second, r.start
+        r.schedule,
+        r.seed,
+        r.replicas,
+        r.moves,
+        r.accepted,
+        r.seconds,
+        r.moves_per_second,
+        r.start
     );
-    println!(
+    outln!(
         "wirelength {:.2} mm, overlap {:.4} mm^2, outside {:.4} mm^2, keep-out {:.4} mm^2",
-        r.wirelength_mm, r.overlap_mm2, r.outside_mm2, r.keepout_mm2
+        r.wirelength_mm,
+        r.overlap_mm2,
+        r.outside_mm2,
+        r.keepout_mm2
     );
     if let Some(o) = optimum {
-        println!(
+        outln!(
             "the board's known optimum is {o:.2} mm: this placement is {:.4} times it",
             r.wirelength_mm / o
         );
     }
     if r.legal {
-        println!("legal: every part inside the board, clear of keep-outs, no overlaps");
+        outln!("legal: every part inside the board, clear of keep-outs, no overlaps");
     } else {
-        println!("NOT legal, {} conflicts:", r.conflicts.len());
+        outln!("NOT legal, {} conflicts:", r.conflicts.len());
         for c in &r.conflicts {
-            println!("  {c}");
+            outln!("  {c}");
         }
     }
     if let Some(out) = out {
-        println!("wrote {}", out.display());
+        outln!("wrote {}", out.display());
     }
 }
 

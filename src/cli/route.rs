@@ -14,6 +14,8 @@ use serde_json::{Value, json};
 use lehr_engine::model::Design;
 use lehr_engine::route::{self, RouteOptions, RouteProgress, RouteResult};
 
+use super::print::outln;
+
 #[derive(Args, Debug)]
 pub struct RouteArgs {
     /// A placed board file.
@@ -36,24 +38,22 @@ pub struct RouteArgs {
 pub fn run(a: RouteArgs) -> Result<ExitCode> {
     let design = lehr_engine::io::load_board(&a.board)?;
     let opts = a.options()?;
-    let result = route_with_progress(&design, &opts, !a.json)?;
-    let mut board = design.board.clone();
-    board.copper = result.copper.clone();
     let out = a
         .out
         .clone()
         .unwrap_or_else(|| super::with_suffix(&a.board, "routed"));
+    // Before the routing: a path that cannot be written fails now, not after it.
+    super::paths::output_file(&out)?;
+    let result = route_with_progress(&design, &opts, !a.json)?;
+    let mut board = design.board.clone();
+    board.copper = result.copper.clone();
     lehr_engine::io::save_board(&out, &board)?;
     if a.json {
-        println!("{}", result_json(&result, &out));
+        outln!("{}", result_json(&result, &out));
     } else {
         print_result(&result, &out, a.diagonal);
     }
-    Ok(if result.unrouted.is_empty() {
-        ExitCode::SUCCESS
-    } else {
-        ExitCode::from(2)
-    })
+    Ok(super::ok_or_problems(result.unrouted.is_empty()))
 }
 
 impl RouteArgs {
@@ -116,7 +116,7 @@ fn result_json(result: &RouteResult, out: &Path) -> Value {
 
 /// The results as text; `asked_diagonal`: `--diagonal` was given.
 fn print_result(result: &RouteResult, out: &Path, asked_diagonal: bool) {
-    println!(
+    outln!(
         "routed {} of {} nets in {} passes, {:.2} s: {:.1} mm of track, {} vias",
         result.routed,
         result.nets,
@@ -126,10 +126,10 @@ fn print_result(result: &RouteResult, out: &Path, asked_diagonal: bool) {
         result.vias
     );
     if result.diagonal && !asked_diagonal {
-        println!("  45-degree steps were used: axis steps alone left nets unrouted");
+        outln!("  45-degree steps were used: axis steps alone left nets unrouted");
     }
     for u in &result.unrouted {
-        println!("  not routed: {}: {}", u.net, u.why);
+        outln!("  not routed: {}: {}", u.net, u.why);
     }
-    println!("wrote {}", out.display());
+    outln!("wrote {}", out.display());
 }

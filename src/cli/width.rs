@@ -8,6 +8,8 @@ use serde_json::json;
 
 use lehr_engine::rules::width;
 
+use super::print::outln;
+
 #[derive(Args, Debug)]
 pub struct WidthArgs {
     /// Continuous current, A.
@@ -49,7 +51,7 @@ pub fn run(a: WidthArgs) -> Result<ExitCode> {
     let area = width::required_area_mil2(a.current, a.rise, position);
     let w = width::required_width_mm(a.current, a.rise, a.copper, position);
     if a.json {
-        println!(
+        outln!(
             "{}",
             json!({
                 "width_mm": w,
@@ -61,7 +63,7 @@ pub fn run(a: WidthArgs) -> Result<ExitCode> {
             })
         );
     } else {
-        println!(
+        outln!(
             "{:.3} mm ({:.1} mil) for {} A, {} C rise, {} oz copper, {} layer (IPC-2221: \
              I = k dT^0.44 A^0.725, A = {:.1} mil^2)",
             w,
@@ -73,7 +75,7 @@ pub fn run(a: WidthArgs) -> Result<ExitCode> {
             area
         );
         if a.current >= 10.0 {
-            println!("caution: high current; follow IPC-2221 and your local codes");
+            outln!("caution: high current; follow IPC-2221 and your local codes");
         }
     }
     Ok(ExitCode::SUCCESS)

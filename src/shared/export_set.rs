@@ -10,6 +10,7 @@ use anyhow::{Context, Result, anyhow, bail};
 use lehr_engine::fab::gerber::{GerberLayer, gerber};
 use lehr_engine::fab::{self, FabOptions};
 use lehr_engine::model::Design;
+use lehr_engine::rules::{self, Violation, ViolationKind};
 
 /// The name Gerber files start with: the board file's name without `.board.ron` (or
 /// `.ron`), with anything but letters, digits, `.`, `_` and `-` made `_`.
@@ -49,6 +50,36 @@ impl Targets {
             drill: Some(dir.join(format!("{stem}.drl"))),
             centroid: Some(dir.join(format!("{stem}-centroid.csv"))),
         }
+    }
+}
+
+impl Targets {
+    /// Copper/mask Gerbers, the drill program or a picture is asked for: the export is
+    /// held to the design rules (the centroid list alone is not).
+    pub fn checked(&self) -> bool {
+        self.gerber.is_some() || self.drill.is_some() || self.svg.is_some() || self.png.is_some()
+    }
+}
+
+/// The broken design rules ([`rules::check`]) that stop an export of `targets` unless the
+/// user agrees: none when only the centroid list is asked for; unrouted nets count only
+/// when the copper layers (Gerber) are asked for.
+pub fn violations(design: &Design, targets: &Targets) -> Vec<Violation> {
+    if !targets.checked() {
+        return Vec::new();
+    }
+    let mut items = rules::check(design);
+    if targets.gerber.is_none() {
+        items.retain(|v| v.kind != ViolationKind::Unconnected);
+    }
+    items
+}
+
+/// One broken rule on one line, as `lehr check` prints it (without the indent).
+pub fn violation_line(v: &Violation) -> String {
+    match v.at {
+        Some(p) => format!("({:.3}, {:.3}) {:?}: {}", p.x, p.y, v.kind, v.message),
+        None => format!("{:?}: {}", v.kind, v.message),
     }
 }
 

@@ -3,6 +3,8 @@
 
 /// Hand-placed test boards and a synthetic board generator.
 mod boards;
+/// The command line among other programs: closed pipes, output paths, exit codes.
+mod cli;
 mod engine;
 /// Fabrication exports read back by outside readers (gerber_parser, roxmltree) and the
 /// `lehr export` command.

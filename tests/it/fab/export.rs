@@ -293,7 +293,7 @@ fn export_errors_are_one_line_and_exit_1() {
 }
 
 #[test]
-fn unrouted_boards_export_with_a_warning_and_place_writes_its_log() {
+fn unrouted_boards_are_refused_unless_allowed_and_place_writes_its_log() {
     let dir = tempfile::tempdir().unwrap();
     let sample = Path::new(env!("CARGO_MANIFEST_DIR")).join("sample-boards/led-dimmer.board.ron");
     let out = lehr_cmd()
@@ -311,7 +311,7 @@ fn unrouted_boards_export_with_a_warning_and_place_writes_its_log() {
         .current_dir(dir.path())
         .output()
         .unwrap();
-    assert!(out.status.code().is_some_and(|c| c == 0 || c == 2));
+    assert!(out.status.code().is_some_and(|c| c == 0 || c == 3));
     let log = std::fs::read_to_string(dir.path().join("run.csv")).unwrap();
     assert!(log.starts_with("stage,moves,temperature,"));
     let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
@@ -322,18 +322,109 @@ fn unrouted_boards_export_with_a_warning_and_place_writes_its_log() {
         "one row per stage and a header"
     );
 
+    // Unrouted nets break the design rules for the copper layers: the export is refused
+    // with code 3, the broken rules listed one a line, nothing written.
     let out = lehr_cmd()
         .args(["export", "p.board.ron", "--gerber", "g"])
+        .current_dir(dir.path())
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(3));
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert!(
+        err.contains("export refused") && err.contains("--allow-violations"),
+        "{err}"
+    );
+    assert!(
+        err.lines()
+            .any(|l| l.starts_with("  ") && l.contains("Unconnected: ")),
+        "{err}"
+    );
+    assert!(!dir.path().join("g").exists());
+    // The same as JSON.
+    let out = lehr_cmd()
+        .args(["export", "p.board.ron", "--gerber", "g", "--json"])
+        .current_dir(dir.path())
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(3));
+    let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    assert_eq!(v["refused"], true);
+    let n = v["violations"].as_u64().unwrap() as usize;
+    assert!(n > 0);
+    assert_eq!(v["violation_items"].as_array().unwrap().len(), n);
+    assert!(!dir.path().join("g").exists());
+    // The centroid list alone is not held to the rules.
+    let out = lehr_cmd()
+        .args(["export", "p.board.ron", "--centroid", "p.csv"])
+        .current_dir(dir.path())
+        .output()
+        .unwrap();
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    assert!(dir.path().join("p.csv").is_file());
+
+    // Asked to anyway: written, with the broken rules and the usual warning.
+    let out = lehr_cmd()
+        .args([
+            "export",
+            "p.board.ron",
+            "--gerber",
+            "g",
+            "--allow-violations",
+        ])
         .current_dir(dir.path())
         .output()
         .unwrap();
     assert!(out.status.success());
     let err = String::from_utf8_lossy(&out.stderr);
     assert!(
-        err.contains("warning") && err.contains("not routed"),
+        err.contains("warning") && err.contains("not routed") && err.contains("exporting anyway"),
         "{err}"
     );
     assert!(dir.path().join("g/p-copper-top.gbr").is_file());
+    let out = lehr_cmd()
+        .args([
+            "export",
+            "p.board.ron",
+            "--gerber",
+            "g",
+            "--allow-violations",
+            "--json",
+        ])
+        .current_dir(dir.path())
+        .output()
+        .unwrap();
+    assert!(out.status.success());
+    let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    assert_eq!(v["refused"], false);
+    assert_eq!(v["violations"].as_u64().unwrap() as usize, n);
+}
+
+#[test]
+fn a_clean_board_exports_with_no_violations_in_json() {
+    let dir = tempfile::tempdir().unwrap();
+    let board = dir.path().join("clean.board.ron");
+    lehr_engine::io::save_board(&board, &fixture().design.board).unwrap();
+    let out = lehr_cmd()
+        .arg("export")
+        .arg(&board)
+        .args(["--gerber", "g", "--json"])
+        .current_dir(dir.path())
+        .output()
+        .unwrap();
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    assert_eq!(v["refused"], false);
+    assert_eq!(v["violations"], 0);
+    assert_eq!(v["written"].as_array().unwrap().len(), 5);
 }
 
 #[test]
@@ -345,10 +436,21 @@ fn hazardous_boards_export_with_the_caution() {
     let dir = tempfile::tempdir().unwrap();
     let path = dir.path().join("mains.board.ron");
     lehr_engine::io::save_board(&path, &board).unwrap();
+    // The class's clearance is too small for 230 V: refused until allowed.
     let out = lehr_cmd()
         .arg("export")
         .arg(&path)
         .args(["--drill", "m.drl"])
+        .current_dir(dir.path())
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(3));
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert!(err.contains("ClassClearanceForVoltage: "), "{err}");
+    let out = lehr_cmd()
+        .arg("export")
+        .arg(&path)
+        .args(["--drill", "m.drl", "--allow-violations"])
         .current_dir(dir.path())
         .output()
         .unwrap();
