@@ -18,6 +18,7 @@ use lehr_engine::model::Design;
 use lehr_engine::place::sweep::{self, SweepResult, SweepRun};
 use lehr_engine::place::{AnnealOptions, Schedule, Start};
 
+use super::print::outln;
 use crate::shared::board_stem;
 
 #[derive(Args, Debug)]
@@ -224,9 +225,11 @@ pub fn run(a: SweepArgs) -> Result<ExitCode> {
             done.iter().filter(|(r, _)| r.board == i).collect();
         written.extend(pictures(&a.out, name, &mine)?);
     }
-    print!("{}", summary_text(&names, &done));
+    for l in summary_text(&names, &done).lines() {
+        outln!("{l}");
+    }
     for w in written {
-        println!("wrote {}", w.display());
+        outln!("wrote {}", w.display());
     }
     Ok(ExitCode::SUCCESS)
 }
