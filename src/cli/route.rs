@@ -35,6 +35,9 @@ pub struct RouteArgs {
 
 pub fn run(a: RouteArgs) -> Result<ExitCode> {
     let design = lehr_engine::io::load_board(&a.board)?;
+    lehr_engine::model::warnings(&design)
+        .iter()
+        .for_each(|w| eprintln!("lehr: warning: {w}"));
     let opts = a.options()?;
     let result = route_with_progress(&design, &opts, !a.json)?;
     let mut board = design.board.clone();
