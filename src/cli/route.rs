@@ -37,6 +37,9 @@ pub struct RouteArgs {
 
 pub fn run(a: RouteArgs) -> Result<ExitCode> {
     let design = lehr_engine::io::load_board(&a.board)?;
+    lehr_engine::model::warnings(&design)
+        .iter()
+        .for_each(|w| eprintln!("lehr: warning: {w}"));
     let opts = a.options()?;
     let out = a
         .out

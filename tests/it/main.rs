@@ -10,6 +10,8 @@ mod engine;
 /// `lehr export` command.
 mod fab;
 mod footprints;
+/// Bad input refused or reported plainly: special files, killed saves, numbers, messages.
+mod hardening;
 /// Netlist import: RFC 4180 connection lists, EDIF 2 0 0, footprint names.
 mod import;
 mod io;

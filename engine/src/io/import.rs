@@ -80,13 +80,14 @@ pub struct Warning {
 
 impl fmt::Display for Warning {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        write!(f, "{}:{}: {}", self.file, self.at, self.message)
+        let message = crate::model::text::escape_controls(&self.message);
+        write!(f, "{}:{}: {message}", self.file, self.at)
     }
 }
 
 /// Why an input is refused, with where.
 #[derive(Clone, Debug, PartialEq, Error)]
-#[error("{file}:{at}: {reason}")]
+#[error("{file}:{at}: {}", crate::model::text::escape_controls(&.reason.to_string()))]
 pub struct ImportProblem {
     pub file: String,
     pub at: Location,

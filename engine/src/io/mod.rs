@@ -156,7 +156,7 @@ pub fn parse_board_unchecked(source: &str, file_name: &str) -> Result<Board, Loa
         .map_err(|e: ron::error::SpannedError| LoadError::Syntax {
             file: file_name.to_string(),
             at: syntax_error_location(source, &e),
-            message: e.code.to_string(),
+            message: crate::model::text::escape_controls(&e.code.to_string()).into_owned(),
         })
 }
 

@@ -11,6 +11,7 @@ use serde::{Deserialize, Serialize};
 use thiserror::Error;
 
 use super::geom::{Point, Rect};
+use super::text::fmt_num;
 
 /// Courtyard excess around pads and body: IPC-7351 nominal density level
 /// (0.25 mm; from memory, see ../shared/CHECK-VALUES.md).
@@ -187,7 +188,12 @@ pub enum FootprintError {
         pins: u32,
         why: &'static str,
     },
-    #[error("{what} must be a finite number between {min} and {max} mm, got {value}")]
+    #[error(
+        "{what} must be a finite number between {} and {} mm, got {}",
+        fmt_num(*.min),
+        fmt_num(*.max),
+        fmt_num(*.value)
+    )]
     BadDimension {
         what: &'static str,
         value: f64,

@@ -168,6 +168,11 @@ impl Rect {
     }
 }
 
+/// Largest rotation accepted, either way, in degrees: a thousand full turns. (Beyond
+/// about 1e17 every float is a multiple of 90, so no check of the remainder could catch
+/// a mistyped angle.)
+pub const MAX_ROTATION_DEG: f64 = 360_000.0;
+
 /// A rotation by a whole number of quarter turns, counter-clockwise (board y up).
 ///
 /// Placement only uses quarter turns: courtyards stay axis-aligned, so overlap stays an
@@ -184,9 +189,10 @@ pub enum Quarter {
 impl Quarter {
     pub const ALL: [Quarter; 4] = [Quarter::R0, Quarter::R90, Quarter::R180, Quarter::R270];
 
-    /// From degrees; `None` unless the angle is a whole multiple of 90 (within 1e-6).
+    /// From degrees; `None` unless the angle is a whole multiple of 90 (within 1e-6) no
+    /// larger than [`MAX_ROTATION_DEG`] either way.
     pub fn from_degrees(deg: f64) -> Option<Quarter> {
-        if !deg.is_finite() {
+        if !deg.is_finite() || deg.abs() > MAX_ROTATION_DEG {
             return None;
         }
         let q = deg / 90.0;
@@ -369,6 +375,9 @@ mod tests {
         assert_eq!(Quarter::from_degrees(450.0), Some(Quarter::R90));
         assert_eq!(Quarter::from_degrees(45.0), None);
         assert_eq!(Quarter::from_degrees(f64::NAN), None);
+        assert_eq!(Quarter::from_degrees(360_000.0), Some(Quarter::R0));
+        assert_eq!(Quarter::from_degrees(-360_090.0), None);
+        assert_eq!(Quarter::from_degrees(1e20), None);
     }
 
     #[test]

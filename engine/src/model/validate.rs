@@ -7,7 +7,8 @@ use std::fmt;
 
 use super::board::{Board, Design, NetId, PartId, PinRef, Rules, Shape};
 use super::footprint::Footprint;
-use super::geom::{self, Quarter};
+use super::geom::{self, MAX_ROTATION_DEG, Quarter};
+use super::text::{escape_controls, fmt_num};
 
 /// Largest coordinate or size accepted anywhere, in mm (a 10 m board is absurd already).
 pub const MAX_COORD_MM: f64 = 10_000.0;
@@ -70,22 +71,34 @@ struct Checker {
 }
 
 impl Checker {
+    /// Records a problem. Control characters (from names in the file) are escaped, so
+    /// that each message stays one line.
     fn report(&mut self, path: ItemPath, message: impl Into<String>) {
-        self.problems.push(Problem {
-            path,
-            message: message.into(),
-        });
+        let message = message.into();
+        let message = match escape_controls(&message) {
+            std::borrow::Cow::Borrowed(_) => message,
+            std::borrow::Cow::Owned(escaped) => escaped,
+        };
+        self.problems.push(Problem { path, message });
     }
 
     /// A length or coordinate: finite and within `lo..=hi`.
     fn number(&mut self, path: ItemPath, what: &str, v: f64, lo: f64, hi: f64) -> bool {
         if !v.is_finite() {
-            self.report(path, format!("{what} is not a finite number ({v})"));
+            self.report(
+                path,
+                format!("{what} is not a finite number ({})", fmt_num(v)),
+            );
             false
         } else if v < lo || v > hi {
             self.report(
                 path,
-                format!("{what} {v} is outside the sane range {lo} to {hi}"),
+                format!(
+                    "{what} {} is outside the sane range {} to {}",
+                    fmt_num(v),
+                    fmt_num(lo),
+                    fmt_num(hi)
+                ),
             );
             false
         } else {
@@ -157,7 +170,11 @@ pub fn problems_line(problems: &[Problem]) -> String {
 }
 
 /// Validates the board and builds the resolved design, or returns every problem found.
-pub fn resolve(board: Board) -> Result<Design, Vec<Problem>> {
+pub fn resolve(mut board: Board) -> Result<Design, Vec<Problem>> {
+    drop_closing_vertex(&mut board.outline);
+    for k in &mut board.keepouts {
+        drop_closing_vertex(&mut k.shape);
+    }
     let mut c = Checker {
         problems: Vec::new(),
     };
@@ -183,6 +200,17 @@ pub fn resolve(board: Board) -> Result<Design, Vec<Problem>> {
     }
 }
 
+/// Removes the last vertex of a polygon that repeats the first: polygons are closed
+/// implicitly, and writing the closing vertex out is a common habit.
+fn drop_closing_vertex(shape: &mut Shape) {
+    if let Shape::Polygon(pts) = shape
+        && pts.len() > 3
+        && pts.first() == pts.last()
+    {
+        pts.pop();
+    }
+}
+
 /// The steps of [`resolve`], in the order their problems are listed.
 impl Checker {
     /// The outline and the keep-outs' shapes; whether the outline is sound.
@@ -198,8 +226,25 @@ impl Checker {
         outline_ok
     }
 
-    /// The known optimum, when given.
+    /// The known optimum and the placement record, when given.
     fn optimum(&mut self, board: &Board) {
+        if let Some(r) = &board.placement {
+            let p = ItemPath::root("placement");
+            self.number(
+                p.clone().field("energy"),
+                "placement energy",
+                r.energy,
+                f64::MIN,
+                f64::MAX,
+            );
+            self.number(
+                p.field("wirelength_mm"),
+                "placement wirelength",
+                r.wirelength_mm,
+                0.0,
+                1e12,
+            );
+        }
         if let Some(o) = &board.optimum {
             self.number(
                 ItemPath::root("optimum").field("wirelength_mm"),
@@ -385,12 +430,24 @@ impl Checker {
                     MAX_COORD_MM,
                 );
             }
-            if Quarter::from_degrees(part.rotation).is_none() {
+            if part.rotation.is_finite() && part.rotation.abs() > MAX_ROTATION_DEG {
+                self.report(
+                    p.clone().field("rotation"),
+                    format!(
+                        "{}: rotation {} is outside the sane range {} to {} degrees",
+                        part.reference,
+                        fmt_num(part.rotation),
+                        fmt_num(-MAX_ROTATION_DEG),
+                        fmt_num(MAX_ROTATION_DEG)
+                    ),
+                );
+            } else if Quarter::from_degrees(part.rotation).is_none() {
                 self.report(
                     p.clone().field("rotation"),
                     format!(
                         "{}: rotation {} is not a multiple of 90 degrees",
-                        part.reference, part.rotation
+                        part.reference,
+                        fmt_num(part.rotation)
                     ),
                 );
             }
@@ -520,7 +577,11 @@ impl Checker {
                 if !pt.is_finite() || pt.x.abs() > MAX_COORD_MM || pt.y.abs() > MAX_COORD_MM {
                     self.report(
                         p.clone().field("points"),
-                        format!("track point ({}, {}) is not a sane coordinate", pt.x, pt.y),
+                        format!(
+                            "track point ({}, {}) is not a sane coordinate",
+                            fmt_num(pt.x),
+                            fmt_num(pt.y)
+                        ),
                     );
                     break;
                 }
