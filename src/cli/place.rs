@@ -132,6 +132,9 @@ fn parse_start(s: &str) -> Result<Start, String> {
 
 pub fn run(a: PlaceArgs) -> Result<ExitCode> {
     let design = lehr_engine::io::load_board(&a.board)?;
+    lehr_engine::model::warnings(&design)
+        .iter()
+        .for_each(|w| eprintln!("lehr: warning: {w}"));
     let opts = a.options()?;
     lehr_engine::place::options::check_options(&opts)?;
     let out = a
