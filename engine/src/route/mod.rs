@@ -146,6 +146,18 @@ pub struct RouteResult {
     pub track_length_mm: f64,
     /// Number of vias.
     pub vias: usize,
+    /// Sum over the nets that need routing of the length of a rectilinear (Manhattan)
+    /// minimum spanning tree of their pad centres: what pin-to-pin wiring would need
+    /// without detours, the yardstick for [`RouteResult::track_over_mst`].
+    #[serde(default)]
+    pub mst_mm: f64,
+    /// Track length over [`RouteResult::mst_mm`] (0 when that is 0). Below 1 the tracks
+    /// branch between pins (Steiner points); above 1 they detour.
+    #[serde(default)]
+    pub track_over_mst: f64,
+    /// Vias over the nets that need routing (0 when there are none).
+    #[serde(default)]
+    pub vias_per_net: f64,
     /// Passes of rip-up and reroute run.
     pub passes: u32,
     /// Time the whole run took.

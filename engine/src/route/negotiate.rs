@@ -23,6 +23,7 @@ use super::{
 };
 use crate::model::board::{Board, Copper, Track, Via};
 use crate::model::{Design, Layer, PartId, Point};
+use crate::place::mst::{Metric, spanning_length};
 use crate::rules::geometry::{LayerSet, Prim, dist, placed_pad};
 
 /// A pin of a net to route.
@@ -816,12 +817,24 @@ impl<'a> Router<'a> {
             .iter()
             .flat_map(|t| t.points.windows(2).map(|w| dist(w[0], w[1])))
             .sum();
+        let mst_mm: f64 = self
+            .nets
+            .iter()
+            .map(|plan| {
+                let centres: Vec<Point> = plan.pins.iter().map(|p| p.centre).collect();
+                spanning_length(&centres, Metric::Manhattan)
+            })
+            .sum();
+        let ratio = |a: f64, b: f64| if b > 0.0 { a / b } else { 0.0 };
         RouteResult {
             nets: self.nets.len(),
             routed,
             unrouted,
             track_length_mm,
             vias: copper.vias.len(),
+            mst_mm,
+            track_over_mst: ratio(track_length_mm, mst_mm),
+            vias_per_net: ratio(copper.vias.len() as f64, self.nets.len() as f64),
             copper,
             passes: self.passes,
             seconds: self.start.elapsed().as_secs_f64(),
