@@ -39,8 +39,9 @@ use std::sync::atomic::AtomicBool;
 use serde::{Deserialize, Serialize};
 use thiserror::Error;
 
-use crate::model::Design;
 use crate::model::board::Copper;
+use crate::model::{Design, Point};
+use crate::place::mst::{Metric, spanning_length};
 pub use search::{Cell, Maze};
 
 /// How the router searches and negotiates. Costs are in grid steps.
@@ -134,7 +135,7 @@ pub struct Unrouted {
 }
 
 /// The routed copper and how it went.
-#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[derive(Clone, Debug, Default, PartialEq, Serialize, Deserialize)]
 pub struct RouteResult {
     /// Tracks and vias; partly routed nets keep the copper they got.
     pub copper: Copper,
@@ -170,6 +171,25 @@ pub struct RouteResult {
     /// nets unrouted (see [`route`]).
     #[serde(default)]
     pub diagonal: bool,
+}
+
+impl RouteResult {
+    /// The result with [`RouteResult::mst_mm`], [`RouteResult::track_over_mst`] and
+    /// [`RouteResult::vias_per_net`] filled in from the track length, the vias and the pad
+    /// centres of each net that needs routing.
+    fn with_quality<N, P>(mut self, nets: N) -> RouteResult
+    where
+        N: Iterator<Item = P>,
+        P: Iterator<Item = Point>,
+    {
+        let ratio = |a: f64, b: f64| if b > 0.0 { a / b } else { 0.0 };
+        self.mst_mm = nets
+            .map(|centres| spanning_length(&centres.collect::<Vec<_>>(), Metric::Manhattan))
+            .sum();
+        self.track_over_mst = ratio(self.track_length_mm, self.mst_mm);
+        self.vias_per_net = ratio(self.vias as f64, self.nets as f64);
+        self
+    }
 }
 
 /// Why routing could not start.

@@ -23,7 +23,6 @@ use super::{
 };
 use crate::model::board::{Board, Copper, Track, Via};
 use crate::model::{Design, Layer, PartId, Point};
-use crate::place::mst::{Metric, spanning_length};
 use crate::rules::geometry::{LayerSet, Prim, dist, placed_pad};
 
 /// A pin of a net to route.
@@ -817,30 +816,20 @@ impl<'a> Router<'a> {
             .iter()
             .flat_map(|t| t.points.windows(2).map(|w| dist(w[0], w[1])))
             .sum();
-        let mst_mm: f64 = self
-            .nets
-            .iter()
-            .map(|plan| {
-                let centres: Vec<Point> = plan.pins.iter().map(|p| p.centre).collect();
-                spanning_length(&centres, Metric::Manhattan)
-            })
-            .sum();
-        let ratio = |a: f64, b: f64| if b > 0.0 { a / b } else { 0.0 };
         RouteResult {
             nets: self.nets.len(),
             routed,
             unrouted,
             track_length_mm,
             vias: copper.vias.len(),
-            mst_mm,
-            track_over_mst: ratio(track_length_mm, mst_mm),
-            vias_per_net: ratio(copper.vias.len() as f64, self.nets.len() as f64),
             copper,
             passes: self.passes,
             seconds: self.start.elapsed().as_secs_f64(),
             cancelled,
             diagonal: self.opts.diagonal,
+            ..RouteResult::default()
         }
+        .with_quality(self.nets.iter().map(|n| n.pins.iter().map(|p| p.centre)))
     }
 
     /// One track for a run of grid points on one layer, with straight stretches merged.
