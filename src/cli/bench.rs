@@ -403,7 +403,9 @@ const ROUTE_SAMPLES: [(&str, &str); 4] = [
 /// Routing: each sample board placed by `lehr place` (default settings, seeds 1 to 3; seed
 /// 1 only with `--quick`), then routed with the default options and checked. Per board:
 /// `route_<board>_seconds` (the slowest seed), `route_<board>_routed_fraction` (the worst
-/// seed), `route_<board>_violations` (the most, every kind), `route_<board>_seeds`, and
+/// seed), `route_<board>_violations` (the most, every kind), `route_<board>_vias_per_net`
+/// and `route_<board>_track_over_mst` (the worst seed; see
+/// [`RouteResult::track_over_mst`]), `route_<board>_seeds`, and
 /// the placement's wirelength and time (`place_<board>_mm`, `place_<board>_seconds`,
 /// seed 1).
 fn route_samples(args: &BenchArgs, out: &mut Out) -> Result<()> {
@@ -411,6 +413,7 @@ fn route_samples(args: &BenchArgs, out: &mut Out) -> Result<()> {
     for (name, source) in ROUTE_SAMPLES {
         let design = lehr_engine::io::parse_board(source, name)?;
         let (mut worst_seconds, mut worst_fraction, mut most_violations) = (0.0f64, 1.0f64, 0);
+        let (mut most_vias_per_net, mut worst_track_over_mst) = (0.0f64, 0.0f64);
         for &seed in seeds {
             let placed = place::place(
                 &design,
@@ -433,12 +436,14 @@ fn route_samples(args: &BenchArgs, out: &mut Out) -> Result<()> {
             let (r, violations) = route_and_check(placed.board)?;
             if !args.json {
                 outln!(
-                    "route {name}, seed {seed}: {} of {} nets, {} vias, {:.0} mm, {} passes, \
-                     {:.2} s, {violations} violations",
+                    "route {name}, seed {seed}: {} of {} nets, {} vias ({:.2} per net), {:.0} mm \
+                     ({:.2} x spanning tree), {} passes, {:.2} s, {violations} violations",
                     r.routed,
                     r.nets,
                     r.vias,
+                    r.vias_per_net,
                     r.track_length_mm,
+                    r.track_over_mst,
                     r.passes,
                     r.seconds
                 );
@@ -449,6 +454,8 @@ fn route_samples(args: &BenchArgs, out: &mut Out) -> Result<()> {
             worst_seconds = worst_seconds.max(r.seconds);
             worst_fraction = worst_fraction.min(r.routed as f64 / r.nets.max(1) as f64);
             most_violations = most_violations.max(violations);
+            most_vias_per_net = most_vias_per_net.max(r.vias_per_net);
+            worst_track_over_mst = worst_track_over_mst.max(r.track_over_mst);
         }
         out.put(format!("route_{name}_seconds"), json!(worst_seconds));
         out.put(
@@ -456,6 +463,14 @@ fn route_samples(args: &BenchArgs, out: &mut Out) -> Result<()> {
             json!(worst_fraction),
         );
         out.put(format!("route_{name}_violations"), json!(most_violations));
+        out.put(
+            format!("route_{name}_vias_per_net"),
+            json!(most_vias_per_net),
+        );
+        out.put(
+            format!("route_{name}_track_over_mst"),
+            json!(worst_track_over_mst),
+        );
         out.put(format!("route_{name}_seeds"), json!(seeds));
     }
     Ok(())

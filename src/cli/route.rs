@@ -110,6 +110,9 @@ fn result_json(result: &RouteResult, out: &Path) -> Value {
         "unrouted": result.unrouted.iter().map(|u| json!({"net": u.net, "why": u.why})).collect::<Vec<_>>(),
         "track_length_mm": result.track_length_mm,
         "vias": result.vias,
+        "mst_mm": result.mst_mm,
+        "track_over_mst": result.track_over_mst,
+        "vias_per_net": result.vias_per_net,
         "passes": result.passes,
         "diagonal": result.diagonal,
         "seconds": result.seconds,
@@ -127,6 +130,12 @@ fn print_result(result: &RouteResult, out: &Path, asked_diagonal: bool) {
         result.seconds,
         result.track_length_mm,
         result.vias
+    );
+    outln!(
+        "  {:.2} vias per net; track {:.2} x the spanning-tree length of the pads ({:.1} mm)",
+        result.vias_per_net,
+        result.track_over_mst,
+        result.mst_mm
     );
     if result.diagonal && !asked_diagonal {
         outln!("  45-degree steps were used: axis steps alone left nets unrouted");

@@ -519,3 +519,66 @@ fn route_timing() {
         assert!(r.seconds < budget, "{} s", r.seconds);
     }
 }
+
+/// Rectilinear minimum spanning tree length by petgraph's Kruskal on the complete graph.
+fn petgraph_manhattan_mst(pts: &[lehr_engine::model::Point]) -> f64 {
+    use petgraph::algo::min_spanning_tree;
+    use petgraph::data::Element;
+    use petgraph::graph::UnGraph;
+    let mut g = UnGraph::<(), f64>::new_undirected();
+    let nodes: Vec<_> = pts.iter().map(|_| g.add_node(())).collect();
+    for i in 0..pts.len() {
+        for j in i + 1..pts.len() {
+            let d = (pts[i].x - pts[j].x).abs() + (pts[i].y - pts[j].y).abs();
+            g.add_edge(nodes[i], nodes[j], d);
+        }
+    }
+    min_spanning_tree(&g)
+        .filter_map(|e| match e {
+            Element::Edge { weight, .. } => Some(weight),
+            Element::Node { .. } => None,
+        })
+        .sum()
+}
+
+#[test]
+fn routing_quality_figures_match_an_independent_computation() {
+    let board = small_board();
+    let d = design(board.clone());
+    let (r, _) = run(&d, &RouteOptions::default());
+    assert_eq!(r.routed, r.nets, "unrouted: {:?}", r.unrouted);
+    // The pad centres from the model's own pin positions, not the router's pin list.
+    let nets: Vec<Vec<lehr_engine::model::Point>> = d
+        .net_pins
+        .iter()
+        .filter(|pins| pins.len() >= 2)
+        .map(|pins| {
+            pins.iter()
+                .map(|&p| d.pin_position(p).expect("placed"))
+                .collect()
+        })
+        .collect();
+    assert_eq!(nets.len(), r.nets);
+    let mst: f64 = nets.iter().map(|pts| petgraph_manhattan_mst(pts)).sum();
+    assert!(mst > 0.0);
+    assert!((r.mst_mm - mst).abs() < 1e-9, "{} vs {mst}", r.mst_mm);
+    // Track length from the copper's segments, vias counted on the copper.
+    let track: f64 = r
+        .copper
+        .tracks
+        .iter()
+        .flat_map(|t| {
+            t.points
+                .windows(2)
+                .map(|w| (w[1].x - w[0].x).hypot(w[1].y - w[0].y))
+        })
+        .sum();
+    assert!((r.track_length_mm - track).abs() < 1e-9);
+    assert!((r.track_over_mst - track / mst).abs() < 1e-12);
+    let per_net = r.copper.vias.len() as f64 / nets.len() as f64;
+    assert!((r.vias_per_net - per_net).abs() < 1e-12);
+    assert!(r.vias_per_net > 0.0, "EN needs a via");
+    // Every routed net joins all its pads, so its copper is at least a rectilinear Steiner
+    // tree of them, which is at least 2/3 of the spanning tree (Hwang, 1976).
+    assert!(r.track_over_mst >= 2.0 / 3.0, "{}", r.track_over_mst);
+}

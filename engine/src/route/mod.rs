@@ -39,8 +39,9 @@ use std::sync::atomic::AtomicBool;
 use serde::{Deserialize, Serialize};
 use thiserror::Error;
 
-use crate::model::Design;
 use crate::model::board::Copper;
+use crate::model::{Design, Point};
+use crate::place::mst::{Metric, spanning_length};
 pub use search::{Cell, Maze};
 
 /// How the router searches and negotiates. Costs are in grid steps.
@@ -56,7 +57,9 @@ pub struct RouteOptions {
     /// Cost of a change of direction, in grid steps.
     pub bend_cost: f64,
     /// Extra cost factor for a step against its layer's preferred direction (top prefers
-    /// horizontal, bottom vertical), which keeps the two layers from blocking each other.
+    /// horizontal, bottom vertical), meant to keep the two layers from blocking each
+    /// other. 0 by default: on the sample boards any preference cost more vias and longer
+    /// tracks than it saved (docs/route-and-rules.md, "Routing quality").
     pub wrong_way_cost: f64,
     /// Most passes of rip-up and reroute.
     pub max_passes: u32,
@@ -75,7 +78,7 @@ impl Default for RouteOptions {
             via_cost: 8.0,
             vias_in_pads: false,
             bend_cost: 0.5,
-            wrong_way_cost: 0.3,
+            wrong_way_cost: 0.0,
             max_passes: 60,
             present_factor: 0.5,
             present_growth: 1.6,
@@ -132,7 +135,7 @@ pub struct Unrouted {
 }
 
 /// The routed copper and how it went.
-#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[derive(Clone, Debug, Default, PartialEq, Serialize, Deserialize)]
 pub struct RouteResult {
     /// Tracks and vias; partly routed nets keep the copper they got.
     pub copper: Copper,
@@ -146,6 +149,18 @@ pub struct RouteResult {
     pub track_length_mm: f64,
     /// Number of vias.
     pub vias: usize,
+    /// Sum over the nets that need routing of the length of a rectilinear (Manhattan)
+    /// minimum spanning tree of their pad centres: what pin-to-pin wiring would need
+    /// without detours, the yardstick for [`RouteResult::track_over_mst`].
+    #[serde(default)]
+    pub mst_mm: f64,
+    /// Track length over [`RouteResult::mst_mm`] (0 when that is 0). Below 1 the tracks
+    /// branch between pins (Steiner points); above 1 they detour.
+    #[serde(default)]
+    pub track_over_mst: f64,
+    /// Vias over the nets that need routing (0 when there are none).
+    #[serde(default)]
+    pub vias_per_net: f64,
     /// Passes of rip-up and reroute run.
     pub passes: u32,
     /// Time the whole run took.
@@ -156,6 +171,25 @@ pub struct RouteResult {
     /// nets unrouted (see [`route`]).
     #[serde(default)]
     pub diagonal: bool,
+}
+
+impl RouteResult {
+    /// The result with [`RouteResult::mst_mm`], [`RouteResult::track_over_mst`] and
+    /// [`RouteResult::vias_per_net`] filled in from the track length, the vias and the pad
+    /// centres of each net that needs routing.
+    fn with_quality<N, P>(mut self, nets: N) -> RouteResult
+    where
+        N: Iterator<Item = P>,
+        P: Iterator<Item = Point>,
+    {
+        let ratio = |a: f64, b: f64| if b > 0.0 { a / b } else { 0.0 };
+        self.mst_mm = nets
+            .map(|centres| spanning_length(&centres.collect::<Vec<_>>(), Metric::Manhattan))
+            .sum();
+        self.track_over_mst = ratio(self.track_length_mm, self.mst_mm);
+        self.vias_per_net = ratio(self.vias as f64, self.nets as f64);
+        self
+    }
 }
 
 /// Why routing could not start.

@@ -827,7 +827,9 @@ impl<'a> Router<'a> {
             seconds: self.start.elapsed().as_secs_f64(),
             cancelled,
             diagonal: self.opts.diagonal,
+            ..RouteResult::default()
         }
+        .with_quality(self.nets.iter().map(|n| n.pins.iter().map(|p| p.centre)))
     }
 
     /// One track for a run of grid points on one layer, with straight stretches merged.
