@@ -97,7 +97,39 @@ pub fn run() -> Result<ExitCode> {
 
 /// `dir/name.board.ron` -> `dir/name.SUFFIX.board.ron`: where a command writes its result
 /// when no `--out` is given.
+/// The stage suffixes do not stack (`bike.placed.board.ron` routed gives
+/// `bike.routed.board.ron`), but the input is never the default output: routing
+/// `bike.routed.board.ron` again writes `bike.routed.routed.board.ron`.
 pub fn with_suffix(input: &Path, suffix: &str) -> PathBuf {
-    let stem = board_stem(input).unwrap_or("board");
-    input.with_file_name(format!("{stem}.{suffix}.board.ron"))
+    let stem = crate::shared::design_stem(input).unwrap_or("board");
+    let out = input.with_file_name(format!("{stem}.{suffix}.board.ron"));
+    if out == input {
+        let stem = board_stem(input).unwrap_or("board");
+        input.with_file_name(format!("{stem}.{suffix}.board.ron"))
+    } else {
+        out
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn default_outputs_do_not_stack_or_overwrite_the_input() {
+        let p = |s: &str| PathBuf::from(s);
+        assert_eq!(
+            with_suffix(&p("d/bike.board.ron"), "placed"),
+            p("d/bike.placed.board.ron")
+        );
+        assert_eq!(
+            with_suffix(&p("d/bike.placed.board.ron"), "routed"),
+            p("d/bike.routed.board.ron")
+        );
+        // Routing a routed board again never writes over it.
+        assert_eq!(
+            with_suffix(&p("bike.routed.board.ron"), "routed"),
+            p("bike.routed.routed.board.ron")
+        );
+    }
 }

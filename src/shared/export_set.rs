@@ -15,7 +15,7 @@ use lehr_engine::rules::{self, Violation, ViolationKind};
 /// The name Gerber files start with: the board file's name without `.board.ron` (or
 /// `.ron`), with anything but letters, digits, `.`, `_` and `-` made `_`.
 pub fn file_stem(board: &Path) -> String {
-    let stem = super::board_stem(board).unwrap_or("board");
+    let stem = super::design_stem(board).unwrap_or("board");
     let s: String = stem
         .chars()
         .map(|c| {

@@ -16,6 +16,21 @@ pub const SAMPLE_NAME: &str = "led-dimmer.board.ron (built in)";
 
 /// A board file's name without `.board.ron` (or `.ron`); `None` if it has no name that
 /// is text.
+/// The board's design name: [`board_stem`] without the stage suffixes lehr adds
+/// (`.placed`, `.routed`), so names made from it do not stack
+/// (`bike.placed.board.ron` -> `bike`).
+pub fn design_stem(path: &Path) -> Option<&str> {
+    let mut stem = board_stem(path)?;
+    while let Some(s) = [".placed", ".routed"]
+        .iter()
+        .find_map(|suffix| stem.strip_suffix(suffix))
+        .filter(|s| !s.is_empty())
+    {
+        stem = s;
+    }
+    Some(stem)
+}
+
 pub fn board_stem(path: &Path) -> Option<&str> {
     let file = path.file_name().and_then(|f| f.to_str())?;
     Some(
@@ -23,4 +38,27 @@ pub fn board_stem(path: &Path) -> Option<&str> {
             .or_else(|| file.strip_suffix(".ron"))
             .unwrap_or(file),
     )
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn stage_suffixes_do_not_stack() {
+        let stem = |p: &str| design_stem(Path::new(p)).map(str::to_string);
+        assert_eq!(stem("a/bike.board.ron").as_deref(), Some("bike"));
+        assert_eq!(stem("bike.placed.board.ron").as_deref(), Some("bike"));
+        assert_eq!(
+            stem("bike.placed.routed.board.ron").as_deref(),
+            Some("bike")
+        );
+        assert_eq!(stem("v1.2.routed.ron").as_deref(), Some("v1.2"));
+        // A name that is only a suffix keeps it.
+        assert_eq!(stem(".placed.board.ron").as_deref(), Some(".placed"));
+        assert_eq!(
+            export_set::file_stem(Path::new("bike.placed.routed.board.ron")),
+            "bike"
+        );
+    }
 }

@@ -82,11 +82,11 @@ fn export_writes_every_file_and_nothing_else() {
         "b.png",
         "b.drl",
         "b.csv",
-        "gerber/dimmer.routed-copper-top.gbr",
-        "gerber/dimmer.routed-copper-bottom.gbr",
-        "gerber/dimmer.routed-mask-top.gbr",
-        "gerber/dimmer.routed-mask-bottom.gbr",
-        "gerber/dimmer.routed-outline.gbr",
+        "gerber/dimmer-copper-top.gbr",
+        "gerber/dimmer-copper-bottom.gbr",
+        "gerber/dimmer-mask-top.gbr",
+        "gerber/dimmer-mask-bottom.gbr",
+        "gerber/dimmer-outline.gbr",
     ]
     .into_iter()
     .map(String::from)
@@ -99,7 +99,7 @@ fn export_writes_every_file_and_nothing_else() {
     // The files are the library's output, byte for byte.
     let text = |n: &str| std::fs::read_to_string(dir.path().join(n)).unwrap();
     assert_eq!(
-        text("gerber/dimmer.routed-copper-top.gbr"),
+        text("gerber/dimmer-copper-top.gbr"),
         gerber(d, GerberLayer::CopperTop, &FabOptions::default()).unwrap()
     );
     assert_eq!(text("b.drl"), drill::drill(d).unwrap());
