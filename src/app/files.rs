@@ -8,9 +8,12 @@ use std::path::{Path, PathBuf};
 pub const RECENT: usize = 8;
 
 /// Puts `path` at the top of the recent list, without duplicates, at most [`RECENT`].
+/// The path is kept absolute (against the current folder, `..` left as it is), so the
+/// list works when lehr is started from another folder.
 pub fn remember(recent: &mut Vec<PathBuf>, path: &Path) {
-    recent.retain(|p| p != path);
-    recent.insert(0, path.to_path_buf());
+    let path = std::path::absolute(path).unwrap_or_else(|_| path.to_path_buf());
+    recent.retain(|p| *p != path);
+    recent.insert(0, path);
     recent.truncate(RECENT);
 }
 
@@ -101,13 +104,12 @@ mod tests {
             remember(&mut r, Path::new(&format!("b{i}.board.ron")));
         }
         remember(&mut r, Path::new("b5.board.ron"));
+        let here = std::env::current_dir().unwrap();
         assert_eq!(r.len(), RECENT);
-        assert_eq!(r[0], Path::new("b5.board.ron"));
-        assert_eq!(r[1], Path::new("b11.board.ron"));
-        assert_eq!(
-            r.iter().filter(|p| *p == Path::new("b5.board.ron")).count(),
-            1
-        );
+        assert_eq!(r[0], here.join("b5.board.ron"));
+        assert_eq!(r[1], here.join("b11.board.ron"));
+        assert!(r.iter().all(|p| p.is_absolute()), "{r:?}");
+        assert_eq!(r.iter().filter(|p| p.ends_with("b5.board.ron")).count(), 1);
     }
 
     #[test]
