@@ -135,6 +135,22 @@ impl LehrApp {
             {
                 self.confirm = Some(a);
             }
+            Action::SaveThen(inner) => {
+                let path = self.doc.path.clone().or_else(|| self.pick_save_path());
+                match path {
+                    Some(p) => self.save_to(&p),
+                    None => {
+                        self.message = Some(Message {
+                            error: true,
+                            text: "Not saved (no file chosen); nothing was discarded.".into(),
+                        });
+                    }
+                }
+                // A failed save keeps the board dirty: the action waits, nothing is lost.
+                if !self.doc.dirty {
+                    self.apply(*inner, ctx);
+                }
+            }
             Action::Discard(inner) => {
                 self.discarding = true;
                 self.apply(*inner, ctx);

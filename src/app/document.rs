@@ -303,6 +303,11 @@ impl LehrApp {
         }
     }
 
+    /// Asks where to save the board (None when no file was chosen).
+    pub(super) fn pick_save_path(&self) -> Option<PathBuf> {
+        files::pick_save(self.folder().as_deref(), &self.doc.name)
+    }
+
     fn folder(&self) -> Option<PathBuf> {
         self.settings.last_folder.clone()
     }

@@ -141,6 +141,9 @@ pub enum Action {
     Quit,
     /// The user agreed to lose unsaved changes for this action.
     Discard(Box<Action>),
+    /// Save the board (asking where when it has no file yet), then, only if that worked,
+    /// carry out this action.
+    SaveThen(Box<Action>),
 }
 
 /// The board being edited.
@@ -492,10 +495,15 @@ impl LehrApp {
             let modal = egui::Modal::new(egui::Id::unique("discard")).show(ctx, |ui| {
                 ui.heading("Unsaved changes");
                 ui.label(format!(
-                    "The board {} has changes that are not saved. Discard them?",
+                    "The board {} has changes that are not saved. Save them first?",
                     self.doc.name
                 ));
                 ui.horizontal(|ui| {
+                    if ui.button("Save").clicked() {
+                        self.actions
+                            .push(Action::SaveThen(Box::new(pending.clone())));
+                        self.confirm = None;
+                    }
                     if ui.button("Discard changes").clicked() {
                         self.actions
                             .push(Action::Discard(Box::new(pending.clone())));

@@ -230,6 +230,39 @@ fn opening_asks_before_discarding_unsaved_changes_and_shows_cautions() {
 }
 
 #[test]
+fn the_unsaved_changes_prompt_can_save_first() {
+    let dir = tempfile::tempdir().unwrap();
+    let own = dir.path().join("grid.board.ron");
+    let other = dir.path().join("other.board.ron");
+    lehr_engine::io::save_board(&own, &generate::grid_board(8, 2.54, 3)).unwrap();
+    lehr_engine::io::save_board(&other, &generate::grid_board(3, 2.54, 1)).unwrap();
+    let before = std::fs::read(&own).unwrap();
+    let design = resolve(generate::grid_board(8, 2.54, 3)).unwrap();
+    let mut h = harness(LehrApp::new(
+        design,
+        Some(own.clone()),
+        "grid".into(),
+        slow(),
+    ));
+    wait_until(&mut h, "the first snapshot arrives", |a| {
+        a.snapshot().is_some()
+    });
+    h.state_mut().push(Action::Rotate(0));
+    wait_until(&mut h, "the edit is made", |a| a.is_dirty());
+    drop_file(&mut h, &other);
+    h.run_steps(3);
+    assert_eq!(h.state().design().board.parts.len(), 64);
+    h.get_by_label("Save").click();
+    h.step();
+    h.step();
+    // Saved to its own file first (the turned part is in it), then the other board opened.
+    assert_ne!(std::fs::read(&own).unwrap(), before);
+    assert!(lehr_engine::io::load_board(&own).is_ok());
+    assert_eq!(h.state().design().board.parts.len(), 9);
+    assert!(!h.state().is_dirty());
+}
+
+#[test]
 fn turning_a_part_can_be_undone_and_redone() {
     let mut h = harness(grid_app());
     wait_until(&mut h, "the first snapshot arrives", |a| {
