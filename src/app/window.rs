@@ -243,10 +243,19 @@ pub struct OpenOptions {
 
 /// Opens the window on `board` (the built-in sample when `None`) and runs until it closes.
 pub fn run_window(board: Option<&Path>, o: &OpenOptions) -> Result<()> {
-    // Read the board first so a bad file is reported in the terminal too.
-    let loaded = match board {
-        Some(p) => Some((lehr_engine::io::load_board(p)?, p.to_path_buf())),
-        None => None,
+    // Read the board first so a bad file is reported in the terminal too; with a
+    // display, the window still opens (on the sample board) and shows the error, so a
+    // user who started lehr from a desktop sees why.
+    let (loaded, error) = match board.map(|p| (lehr_engine::io::load_board(p), p)) {
+        Some((Ok(d), p)) => (Some((d, p.to_path_buf())), None),
+        Some((Err(e), _)) => {
+            if !display_available() {
+                return Err(e.into());
+            }
+            eprintln!("lehr: error: {e}");
+            (None, Some(format!("Could not open the board: {e}")))
+        }
+        None => (None, None),
     };
     if !display_available() {
         return Err(anyhow!(
@@ -272,7 +281,11 @@ pub fn run_window(board: Option<&Path>, o: &OpenOptions) -> Result<()> {
     eframe::run_native(
         "lehr",
         native,
-        Box::new(move |cc| Ok(Box::new(make_window(cc, loaded, measure, repaint_ms)?))),
+        Box::new(move |cc| {
+            Ok(Box::new(make_window(
+                cc, loaded, error, measure, repaint_ms,
+            )?))
+        }),
     )
     .map_err(|e| anyhow!("cannot open the window: {e}"))
 }
@@ -316,6 +329,7 @@ pub fn measure_headless(board: Option<&Path>, seconds: f64) -> Result<()> {
 fn make_window(
     cc: &eframe::CreationContext<'_>,
     loaded: Option<(lehr_engine::model::Design, PathBuf)>,
+    error: Option<String>,
     measure: Option<f64>,
     repaint_ms: Option<u64>,
 ) -> Result<Window> {
@@ -341,6 +355,9 @@ fn make_window(
         }
         None => LehrApp::sample(settings)?,
     };
+    if let Some(text) = error {
+        app.message = Some(super::Message { error: true, text });
+    }
     if let Some(ms) = repaint_ms {
         app.repaint = Duration::from_millis(ms);
         app.repaint_fixed = true;
