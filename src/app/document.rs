@@ -55,7 +55,19 @@ impl LehrApp {
         self.message = None;
         self.finishing = false;
         self.expect_until = Instant::now() + Duration::from_secs(2);
+        self.check_board_copper();
         self.rebuild_geometry();
+    }
+
+    /// A board that comes with copper: the worker adopts it; a check on it tells which
+    /// nets the copper connects, so those are drawn routed rather than with unrouted
+    /// lines over every net.
+    pub(super) fn check_board_copper(&mut self) {
+        let c = &self.doc.design.board.copper;
+        if !c.tracks.is_empty() || !c.vias.is_empty() {
+            self.copper.checking = true;
+            self.send(Command::Check);
+        }
     }
 
     /// Opens a board file; a problem is shown in the window with file, line and column.

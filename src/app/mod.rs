@@ -249,6 +249,7 @@ impl LehrApp {
             budget: None,
             interval: REPAINT,
         };
+        app.check_board_copper();
         app.rebuild_geometry();
         app
     }

@@ -710,3 +710,34 @@ fn the_menu_shows_the_shortcut_table_and_the_keys_follow_it() {
     h.key_press(egui::Key::Space);
     wait_until(&mut h, "Space pauses the run", |a| !running(a));
 }
+
+#[test]
+fn a_routed_board_opens_drawn_as_routed() {
+    let d = lehr_engine::io::parse_board(crate::shared::SAMPLE_BOARD, "sample").unwrap();
+    let opts = lehr_engine::place::AnnealOptions {
+        max_moves: Some(50_000),
+        ..Default::default()
+    };
+    let placed = lehr_engine::place::place(&d, &opts, |_| true).unwrap();
+    let d = resolve(placed.board).unwrap();
+    let cancel = std::sync::atomic::AtomicBool::new(false);
+    let r = lehr_engine::route::route(&d, &Default::default(), &cancel, &mut |_| {}).unwrap();
+    assert!(r.unrouted.is_empty(), "{:?}", r.unrouted);
+    let mut board = d.board.clone();
+    board.copper = r.copper;
+    let mut h = harness(LehrApp::new(
+        resolve(board).unwrap(),
+        None,
+        "routed".into(),
+        slow(),
+    ));
+    wait_until(&mut h, "the check of the board's copper answers", |a| {
+        a.copper.checked.is_some()
+    });
+    h.step();
+    assert!(h.state().st.routed.iter().all(|&r| r));
+    assert!(
+        h.state().geom.unrouted.is_empty(),
+        "no unrouted lines over routed nets"
+    );
+}
