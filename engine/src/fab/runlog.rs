@@ -4,7 +4,9 @@
 //! `energy` (the weighted sum the annealer minimises), `best_energy` (lowest so far),
 //! the unweighted energy terms `wirelength_mm` (net-weighted HPWL), `overlap_mm2`,
 //! `outside_mm2` and `keepout_mm2`, `acceptance` (the fraction of the stage's moves
-//! accepted) and `window_mm` (the displacement window).
+//! accepted), `window_mm` (the displacement window), and the run the row belongs to:
+//! `start` (`given` or `spectral`: the default placement runs both, one after the other
+//! in the log) and `chain` (the replica at the coldest temperature then).
 //!
 //! Numbers are written in Rust's shortest form that reads back to the same `f64`; the
 //! header names the columns; every row ends in a line feed.
@@ -14,7 +16,7 @@ use std::fmt::Write as _;
 use crate::place::StageReport;
 
 /// The header line's column names, in order.
-pub const COLUMNS: [&str; 11] = [
+pub const COLUMNS: [&str; 13] = [
     "stage",
     "moves",
     "temperature",
@@ -26,6 +28,8 @@ pub const COLUMNS: [&str; 11] = [
     "keepout_mm2",
     "acceptance",
     "window_mm",
+    "start",
+    "chain",
 ];
 
 /// The run log of a placement's stage history (`Placed::history`).
@@ -35,7 +39,7 @@ pub fn run_log(history: &[StageReport]) -> String {
     for r in history {
         let _ = writeln!(
             s,
-            "{},{},{},{},{},{},{},{},{},{},{}",
+            "{},{},{},{},{},{},{},{},{},{},{},{},{}",
             r.stage,
             r.moves,
             r.temperature,
@@ -46,7 +50,9 @@ pub fn run_log(history: &[StageReport]) -> String {
             r.terms.outside,
             r.terms.keepout,
             r.acceptance,
-            r.window
+            r.window,
+            r.start.name(),
+            r.chain
         );
     }
     s

@@ -32,6 +32,14 @@ pub struct StageReport {
     pub acceptance: f64,
     /// Displacement window, mm.
     pub window: f64,
+    /// The run the stage belongs to: its start (set by the placer; `Given` for a lone
+    /// annealer) ...
+    #[serde(default)]
+    pub start: super::options::Start,
+    /// ... and its chain: the replica whose state was at the coldest temperature when
+    /// the row was taken (0 for a lone annealer).
+    #[serde(default)]
+    pub chain: u32,
 }
 
 #[derive(Clone, Copy, Debug, Default)]
@@ -413,6 +421,7 @@ impl Annealer {
             terms: self.layout.terms(),
             acceptance: acc,
             window: self.window,
+            ..StageReport::default()
         });
         let stats = StageStats {
             temperature: self.t,

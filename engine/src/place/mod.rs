@@ -238,6 +238,7 @@ impl Placer {
             out.extend(h[k..].iter().map(|s| StageReport {
                 stage: s.stage + shift_stages,
                 moves: s.moves + shift_moves,
+                start: r.start,
                 ..*s
             }));
             shift_moves += r.chains.moves();

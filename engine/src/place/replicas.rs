@@ -242,11 +242,12 @@ impl Chains {
             .max()
             .unwrap_or(0);
         let moves = self.moves();
-        let c = &self.chains[self.coldest()];
-        if let Some(r) = c.history().last() {
+        let coldest = self.coldest();
+        if let Some(r) = self.chains[coldest].history().last() {
             self.history.push(StageReport {
                 stage: self.round as u32,
                 moves,
+                chain: coldest as u32,
                 ..*r
             });
         }

@@ -74,11 +74,27 @@ fn the_run_log_has_one_row_per_stage() {
         lines.next().unwrap().split(',').collect::<Vec<_>>(),
         runlog::COLUMNS
     );
-    let rows: Vec<Vec<f64>> = lines
-        .map(|l| l.split(',').map(|v| v.parse().unwrap()).collect())
+    let fields: Vec<Vec<&str>> = lines.map(|l| l.split(',').collect()).collect();
+    // The last two columns name the run: its start and its chain.
+    let rows: Vec<Vec<f64>> = fields
+        .iter()
+        .map(|f| f[..11].iter().map(|v| v.parse().unwrap()).collect())
         .collect();
     assert!(placed.history.len() > 5);
     assert_eq!(rows.len(), placed.history.len());
+    for (f, r) in fields.iter().zip(&placed.history) {
+        assert_eq!(f[11], r.start.name());
+        assert_eq!(f[12], r.chain.to_string());
+    }
+    // The default placement runs both starts: the log says which rows are which, the
+    // given start's first, and the chain is one of the replicas.
+    let starts: Vec<&str> = fields.iter().map(|f| f[11]).collect();
+    assert!(
+        starts
+            .windows(2)
+            .all(|w| w[0] == w[1] || (w[0] == "given" && w[1] == "spectral"))
+    );
+    assert!(fields.iter().all(|f| f[12].parse::<u32>().unwrap() < 8));
     for (row, r) in rows.iter().zip(&placed.history) {
         // Shortest round-trip notation: the numbers read back exactly.
         assert_eq!(
