@@ -84,8 +84,12 @@ impl LehrApp {
             Action::SetWeights(w) => self.send(Command::SetWeights(w)),
             Action::SetSpeed(n) => self.send(Command::SetMovesPerTick(n)),
             Action::Restart => {
+                // A restart starts a fresh run with these settings and runs it: a user who
+                // asks to restart expects to see it anneal.
                 let opts = self.settings.controls.options(self.controls.weights);
                 self.send(Command::SetOptions(opts));
+                self.doc.dirty = true;
+                self.send(Command::Run);
             }
             Action::MovePart {
                 part,

@@ -741,3 +741,16 @@ fn a_routed_board_opens_drawn_as_routed() {
         "no unrouted lines over routed nets"
     );
 }
+
+#[test]
+fn restart_with_these_settings_runs() {
+    let mut h = harness(grid_app());
+    wait_until(&mut h, "the first snapshot arrives", |a| {
+        a.snapshot().is_some()
+    });
+    assert!(!h.state().snapshot().unwrap().running);
+    h.get_by_label("Restart with these settings").click();
+    wait_until(&mut h, "the restarted run anneals", |a| {
+        a.snapshot().is_some_and(|s| s.running && s.moves > 0)
+    });
+}
