@@ -110,7 +110,7 @@ fn schedule_help(long: bool) -> String {
     }
 }
 
-fn parse_schedule(s: &str) -> Result<Schedule, String> {
+pub(super) fn parse_schedule(s: &str) -> Result<Schedule, String> {
     s.parse()
         .map_err(|e: place::schedule::ScheduleError| e.to_string())
 }
@@ -126,7 +126,7 @@ fn parse_param(s: &str) -> Result<(String, f64), String> {
     Ok((name.trim().to_string(), v))
 }
 
-fn parse_start(s: &str) -> Result<Start, String> {
+pub(super) fn parse_start(s: &str) -> Result<Start, String> {
     s.parse()
 }
 

@@ -14,6 +14,7 @@ use anyhow::{Context, Result, bail};
 use clap::Args;
 use indicatif::{ProgressBar, ProgressStyle};
 
+use lehr_engine::fab::centroid::field;
 use lehr_engine::model::Design;
 use lehr_engine::place::sweep::{self, SweepResult, SweepRun};
 use lehr_engine::place::{AnnealOptions, Schedule, Start};
@@ -85,14 +86,14 @@ fn parse_seeds(s: &str) -> Result<SeedList, String> {
     Ok(SeedList(out))
 }
 
+/// An item of `--schedules` (spaces around it allowed), as `lehr place --schedule`.
 fn parse_schedule(s: &str) -> Result<Schedule, String> {
-    s.trim()
-        .parse()
-        .map_err(|e: lehr_engine::place::schedule::ScheduleError| e.to_string())
+    super::place::parse_schedule(s.trim())
 }
 
+/// An item of `--starts`, as `lehr place --start`.
 fn parse_start(s: &str) -> Result<Start, String> {
-    s.trim().parse()
+    super::place::parse_start(s.trim())
 }
 
 fn parse_param_values(s: &str) -> Result<(String, Vec<f64>), String> {
@@ -216,16 +217,17 @@ pub fn run(a: SweepArgs) -> Result<ExitCode> {
         .iter()
         .map(|b| board_stem(b).unwrap_or("board").to_string())
         .collect();
+    let stats = group_stats(&done);
     let mut written = vec![
         write(&a.out.join("runs.csv"), &runs_csv(&names, &done))?,
-        write(&a.out.join("summary.csv"), &summary_csv(&names, &done))?,
+        write(&a.out.join("summary.csv"), &summary_csv(&names, &stats))?,
     ];
     for (i, name) in names.iter().enumerate() {
         let mine: Vec<&(SweepRun, SweepResult)> =
             done.iter().filter(|(r, _)| r.board == i).collect();
         written.extend(pictures(&a.out, name, &mine)?);
     }
-    for l in summary_text(&names, &done).lines() {
+    for l in summary_text(&names, &stats).lines() {
         outln!("{l}");
     }
     for w in written {
@@ -237,15 +239,6 @@ pub fn run(a: SweepArgs) -> Result<ExitCode> {
 fn write(path: &Path, text: &str) -> Result<PathBuf> {
     lehr_engine::io::write_file(path, text.as_bytes())?;
     Ok(path.to_path_buf())
-}
-
-/// A CSV field: quoted when it holds a comma, quote or line break.
-fn field(s: &str) -> String {
-    if s.contains([',', '"', '\n', '\r']) {
-        format!("\"{}\"", s.replace('"', "\"\""))
-    } else {
-        s.to_string()
-    }
 }
 
 /// One row per run.
@@ -298,43 +291,79 @@ fn groups(done: &[(SweepRun, SweepResult)]) -> Vec<(GroupKey, Vec<&SweepResult>)
 }
 
 /// One row per board, schedule (with parameters) and start: mean, spread, best.
-fn summary_csv(names: &[String], done: &[(SweepRun, SweepResult)]) -> String {
+/// What the summary says of one group of runs (board, schedule, start).
+struct GroupStats {
+    key: GroupKey,
+    runs: usize,
+    legal: usize,
+    mean: f64,
+    sd: f64,
+    best: f64,
+    worst: f64,
+    moves_per_second: f64,
+}
+
+/// Each group's statistics, computed once for the CSV summary and the printed one.
+fn group_stats(done: &[(SweepRun, SweepResult)]) -> Vec<GroupStats> {
+    groups(done)
+        .into_iter()
+        .filter_map(|(key, xs)| {
+            let wl: Vec<f64> = xs.iter().map(|x| x.wirelength_mm).collect();
+            let (mean, sd, best, worst) = sweep::spread(&wl)?;
+            Some(GroupStats {
+                key,
+                runs: xs.len(),
+                legal: xs.iter().filter(|x| x.legal).count(),
+                mean,
+                sd,
+                best,
+                worst,
+                moves_per_second: xs.iter().map(|x| x.moves_per_second).sum::<f64>()
+                    / xs.len() as f64,
+            })
+        })
+        .collect()
+}
+
+fn summary_csv(names: &[String], stats: &[GroupStats]) -> String {
     let mut s = String::from(
         "board,schedule,start,runs,legal_runs,mean_mm,std_mm,best_mm,worst_mm,mean_moves_per_second\n",
     );
-    for ((b, l, start), xs) in groups(done) {
-        let wl: Vec<f64> = xs.iter().map(|x| x.wirelength_mm).collect();
-        let Some((mean, sd, lo, hi)) = sweep::spread(&wl) else {
-            continue;
-        };
-        let mps = xs.iter().map(|x| x.moves_per_second).sum::<f64>() / xs.len() as f64;
+    for g in stats {
+        let (b, l, start) = &g.key;
         let _ = writeln!(
             s,
-            "{},{},{},{},{},{mean:.4},{sd:.4},{lo:.4},{hi:.4},{mps:.0}",
-            field(&names[b]),
-            field(&l),
+            "{},{},{},{},{},{:.4},{:.4},{:.4},{:.4},{:.0}",
+            field(&names[*b]),
+            field(l),
             start.name(),
-            xs.len(),
-            xs.iter().filter(|x| x.legal).count()
+            g.runs,
+            g.legal,
+            g.mean,
+            g.sd,
+            g.best,
+            g.worst,
+            g.moves_per_second
         );
     }
     s
 }
 
-fn summary_text(names: &[String], done: &[(SweepRun, SweepResult)]) -> String {
+fn summary_text(names: &[String], stats: &[GroupStats]) -> String {
     let mut s = String::new();
-    for ((b, l, start), xs) in groups(done) {
-        let wl: Vec<f64> = xs.iter().map(|x| x.wirelength_mm).collect();
-        if let Some((mean, sd, lo, _)) = sweep::spread(&wl) {
-            let _ = writeln!(
-                s,
-                "{}: {l}, start {}: mean {mean:.1} mm (sd {sd:.1}), best {lo:.1} mm, {} of {} legal",
-                names[b],
-                start.name(),
-                xs.iter().filter(|x| x.legal).count(),
-                xs.len()
-            );
-        }
+    for g in stats {
+        let (b, l, start) = &g.key;
+        let _ = writeln!(
+            s,
+            "{}: {l}, start {}: mean {:.1} mm (sd {:.1}), best {:.1} mm, {} of {} legal",
+            names[*b],
+            start.name(),
+            g.mean,
+            g.sd,
+            g.best,
+            g.legal,
+            g.runs
+        );
     }
     s
 }
