@@ -5,7 +5,7 @@ use std::path::PathBuf;
 use std::process::ExitCode;
 
 use anyhow::{Result, bail};
-use clap::Subcommand;
+use clap::{Args, Subcommand};
 use serde_json::json;
 
 use lehr_engine::model::Board;
@@ -18,21 +18,8 @@ pub enum GenerateCommand {
     /// Square parts in rows and columns with a two-pin net between grid neighbours;
     /// known optimum (R(C-1) + C(R-1)) x pitch, recorded in the board.
     Grid {
-        /// Rows and columns both (a square grid); or give --rows and --cols.
-        #[arg(long, conflicts_with_all = ["rows", "cols"])]
-        size: Option<u32>,
-        /// Rows of parts.
-        #[arg(long, requires = "cols")]
-        rows: Option<u32>,
-        /// Columns of parts.
-        #[arg(long, requires = "rows")]
-        cols: Option<u32>,
-        /// Side of each part and grid pitch, mm.
-        #[arg(long, default_value_t = 2.54)]
-        pitch: f64,
-        /// Board area over the parts' area: 1 fills the board, 1.5 leaves a third free.
-        #[arg(long, default_value_t = 1.0)]
-        slack: f64,
+        #[command(flatten)]
+        array: ArrayArgs,
         /// Seed for the random scatter of the parts.
         #[arg(long, default_value_t = 1)]
         seed: u64,
@@ -47,18 +34,8 @@ pub enum GenerateCommand {
     /// a smallest box of the array, so the array is an optimal placement (the
     /// construction of Chang, Cong and Xie, 2003); the optimum is recorded in the board.
     Peko {
-        /// Rows and columns both; or give --rows and --cols.
-        #[arg(long, conflicts_with_all = ["rows", "cols"])]
-        size: Option<u32>,
-        /// Rows of parts.
-        #[arg(long, requires = "cols")]
-        rows: Option<u32>,
-        /// Columns of parts.
-        #[arg(long, requires = "rows")]
-        cols: Option<u32>,
-        /// Side of each part and grid pitch, mm.
-        #[arg(long, default_value_t = 2.54)]
-        pitch: f64,
+        #[command(flatten)]
+        array: ArrayArgs,
         /// Nets per part.
         #[arg(long, default_value_t = 1.0)]
         nets_per_part: f64,
@@ -66,9 +43,6 @@ pub enum GenerateCommand {
         /// relative; pins 2 to 10). Default: 2:60,3:14,4:8,5:5,6:4,7:3,8:2,9:2,10:2.
         #[arg(long, value_parser = parse_degrees)]
         degrees: Option<Vec<(u32, f64)>>,
-        /// Board area over the parts' area: 1 fills the board, 1.5 leaves a third free.
-        #[arg(long, default_value_t = 1.0)]
-        slack: f64,
         /// Seed for the nets and the scatter of the parts.
         #[arg(long, default_value_t = 1)]
         seed: u64,
@@ -95,6 +69,51 @@ pub enum GenerateCommand {
         #[arg(long)]
         json: bool,
     },
+}
+
+/// The array of square parts the grid and PEKO boards share: its size, pitch and slack.
+#[derive(Args, Debug)]
+pub struct ArrayArgs {
+    /// Rows and columns both (a square grid); or give --rows and --cols.
+    #[arg(long, conflicts_with_all = ["rows", "cols"])]
+    size: Option<u32>,
+    /// Rows of parts.
+    #[arg(long, requires = "cols")]
+    rows: Option<u32>,
+    /// Columns of parts.
+    #[arg(long, requires = "rows")]
+    cols: Option<u32>,
+    /// Side of each part and grid pitch, mm.
+    #[arg(long, default_value_t = 2.54)]
+    pitch: f64,
+    /// Board area over the parts' area: 1 fills the board, 1.5 leaves a third free.
+    #[arg(long, default_value_t = 1.0)]
+    slack: f64,
+}
+
+impl ArrayArgs {
+    /// Rows and columns from `--size` or `--rows` and `--cols`, within 1 to 1000 each
+    /// and 2 to 250,000 parts; pitch and slack checked too.
+    fn rows_cols(&self) -> Result<(u32, u32)> {
+        let (r, c) = match (self.size, self.rows, self.cols) {
+            (Some(n), _, _) => (n, n),
+            (None, Some(r), Some(c)) => (r, c),
+            _ => bail!("give --size N, or --rows R and --cols C"),
+        };
+        if !(1..=1000).contains(&r) || !(1..=1000).contains(&c) || r * c < 2 || r * c > 250_000 {
+            bail!(
+                "rows and columns must be 1 to 1000 each, 2 to 250,000 parts in all; got {r} x {c}"
+            );
+        }
+        let (pitch, slack) = (self.pitch, self.slack);
+        if !(pitch.is_finite() && (0.1..=100.0).contains(&pitch)) {
+            bail!("--pitch must be between 0.1 and 100 mm, got {pitch}");
+        }
+        if !(slack.is_finite() && (1.0..=16.0).contains(&slack)) {
+            bail!("--slack must be between 1 (a full board) and 16, got {slack}");
+        }
+        Ok((r, c))
+    }
 }
 
 /// `2:60,3:20` -> [(2, 60.0), (3, 20.0)].
@@ -124,30 +143,6 @@ fn parse_degrees(s: &str) -> Result<Vec<(u32, f64)>, String> {
         return Err("give at least one net size with a share above 0".into());
     }
     Ok(out)
-}
-
-/// Rows and columns from `--size` or `--rows` and `--cols`, within 1..=`max` each and
-/// at least two parts.
-fn rows_cols(size: Option<u32>, rows: Option<u32>, cols: Option<u32>) -> Result<(u32, u32)> {
-    let (r, c) = match (size, rows, cols) {
-        (Some(n), _, _) => (n, n),
-        (None, Some(r), Some(c)) => (r, c),
-        _ => bail!("give --size N, or --rows R and --cols C"),
-    };
-    if !(1..=1000).contains(&r) || !(1..=1000).contains(&c) || r * c < 2 || r * c > 250_000 {
-        bail!("rows and columns must be 1 to 1000 each, 2 to 250,000 parts in all; got {r} x {c}");
-    }
-    Ok((r, c))
-}
-
-fn check_pitch_slack(pitch: f64, slack: f64) -> Result<()> {
-    if !(pitch.is_finite() && (0.1..=100.0).contains(&pitch)) {
-        bail!("--pitch must be between 0.1 and 100 mm, got {pitch}");
-    }
-    if !(slack.is_finite() && (1.0..=16.0).contains(&slack)) {
-        bail!("--slack must be between 1 (a full board) and 16, got {slack}");
-    }
-    Ok(())
 }
 
 pub fn run(g: GenerateCommand) -> Result<ExitCode> {
@@ -182,37 +177,28 @@ pub fn run(g: GenerateCommand) -> Result<ExitCode> {
 fn make(g: GenerateCommand) -> Result<(Board, PathBuf, bool)> {
     Ok(match g {
         GenerateCommand::Grid {
-            size,
-            rows,
-            cols,
-            pitch,
-            slack,
+            array,
             seed,
             out,
             json,
         } => {
-            let (r, c) = rows_cols(size, rows, cols)?;
-            check_pitch_slack(pitch, slack)?;
+            let (r, c) = array.rows_cols()?;
             (
-                generate::grid_rect_board(r, c, pitch, slack, seed),
+                generate::grid_rect_board(r, c, array.pitch, array.slack, seed),
                 out,
                 json,
             )
         }
         GenerateCommand::Peko {
-            size,
-            rows,
-            cols,
-            pitch,
+            array,
             nets_per_part,
             degrees,
-            slack,
             seed,
             out,
             json,
         } => {
-            let (r, c) = rows_cols(size, rows, cols)?;
-            check_pitch_slack(pitch, slack)?;
+            let (r, c) = array.rows_cols()?;
+            let ArrayArgs { pitch, slack, .. } = array;
             if !(nets_per_part.is_finite() && (0.1..=10.0).contains(&nets_per_part)) {
                 bail!("--nets-per-part must be between 0.1 and 10, got {nets_per_part}");
             }
