@@ -37,15 +37,8 @@ fn step(c: &mut Step<'_>) -> f64 {
 
 #[cfg(test)]
 mod tests {
-    use super::super::tests::stats;
-    use super::super::{Cooling, Leg, Schedule};
-
-    const LEG: Leg = Leg {
-        t_from: 100.0,
-        t_to: 1.0,
-        start: 0,
-        end: 1000,
-    };
+    use super::super::tests::{LEG, stats};
+    use super::super::{Cooling, Schedule};
 
     /// Half-way along a leg from 100 to 1, geometric is at 10 (even in log T).
     #[test]

@@ -589,6 +589,14 @@ impl Cooling {
 mod tests {
     use super::*;
 
+    /// A leg from 100 to 1 over 1,000 moves, for the schedules' closed-form tests.
+    pub(super) const LEG: Leg = Leg {
+        t_from: 100.0,
+        t_to: 1.0,
+        start: 0,
+        end: 1000,
+    };
+
     #[test]
     fn names_round_trip() {
         for k in ALL {
